@@ -1,0 +1,1 @@
+"""Postproc: the command line, the exports and the report (knows people, not mechanics)."""

@@ -1,0 +1,433 @@
+"""Load a model folder: read every table, validate it whole-column, convert to internal units."""
+
+from __future__ import annotations
+
+import re
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+from scipy.spatial import cKDTree
+
+from readers import units
+from readers.errors import ProblemList
+from readers.model import COINCIDENT_MM, POSITION_TOLERANCE, Model, drawn_backwards
+from readers.settings import FLANGE_WORDS, TABLES, Settings, read_settings
+from readers.tables import numeric, read_table, required_text, spreadsheet_rows
+
+#: Yield stresses outside this range [MPa] are almost always a units mistake.
+FY_RANGE_MPA = (150.0, 1000.0)
+
+#: Section property overrides and the power of the section length unit each carries.
+OVERRIDES: dict[str, int] = {"A": 2, "Ix": 4, "Iy": 4, "Sx": 3, "Zx": 3, "J": 4, "Cw": 6}
+
+#: Words accepted in the supports table's ``restrains`` column.
+RESTRAINT_WORDS = frozenset({"ux", "uy", "uz", "rx", "ry", "rz", "all"})
+
+
+def load_model(folder: Path | str, settings_file: Path | str | None = None) -> Model:
+    """Read and validate the model in ``folder``; return it in internal units.
+
+    Args:
+        folder: the folder holding the CSV files (and ``flangewise.toml`` if any).
+        settings_file: a settings file to use instead of the folder's own.
+
+    Raises:
+        InputError: listing every problem found (file, spreadsheet row, column, value, expected).
+    """
+    settings = read_settings(folder, settings_file)
+    problems = ProblemList()
+    raw = {t: read_table(settings, t, problems) for t in TABLES}
+    problems.raise_if_any()
+    tables = {t: df for t, df in raw.items() if df is not None}
+    nodes = _nodes(tables["nodes"], settings, problems)
+    sections = _sections(tables["sections"], settings, problems)
+    elements = _elements(tables["elements"], nodes, sections, settings, problems)
+    braces = _braces(tables["braces"], nodes, settings, problems)
+    supports = _supports(tables["supports"], nodes, settings, problems)
+    forces = _forces(tables["forces"], elements, settings, problems)
+    problems.raise_if_any()
+    return Model(
+        nodes=nodes,
+        elements=elements,
+        sections=sections,
+        forces=forces,
+        braces=braces,
+        supports=supports,
+        settings=settings,
+    )
+
+
+def _col(settings: Settings, table: str, ours: str) -> str:
+    return settings.columns[table][ours]
+
+
+def _unique_ids(
+    df: pd.DataFrame, column: str, table: str, settings: Settings, problems: ProblemList
+) -> np.ndarray:
+    """Record repeated ids; return a mask of rows that keep their id (first occurrences)."""
+    name = settings.files[table]
+    ids = df[column]
+    dup = ids.duplicated(keep="first") & ids.notna()
+    if dup.any():
+        first = ids[~ids.duplicated(keep="first")]
+        first_row = pd.Series(spreadsheet_rows(first.index), index=first.to_numpy())
+        rows = spreadsheet_rows(df.index[dup.to_numpy()])
+        for r, v in zip(rows, ids[dup], strict=True):
+            problems.add(
+                name,
+                int(r),
+                _col(settings, table, column),
+                v,
+                f"a unique id (it is already used at row {first_row[v]})",
+            )
+    return (~dup & ids.notna()).to_numpy()
+
+
+def _nodes(df: pd.DataFrame, settings: Settings, problems: ProblemList) -> pd.DataFrame:
+    file = settings.files["nodes"]
+    required_text(df, "id", file, _col(settings, "nodes", "id"), problems)
+    keep = _unique_ids(df, "id", "nodes", settings, problems)
+    f = units.factor("length", settings.units.length)
+    xyz = {c: numeric(df, c, file, _col(settings, "nodes", c), problems) * f for c in "xyz"}
+    if settings.vertical == "y":
+        # Y up -> internal z up, keeping a right-handed system: (X, Y, Z) -> (X, -Z, Y).
+        xyz = {"x": xyz["x"], "y": -xyz["z"], "z": xyz["y"]}
+    out = pd.DataFrame(xyz)
+    out.index = pd.Index(df["id"], name="id")
+    _coincident_nodes(out, df.index, file, settings, problems)
+    return out[keep]
+
+
+def _coincident_nodes(
+    nodes: pd.DataFrame,
+    records: pd.Index,
+    file: str,
+    settings: Settings,
+    problems: ProblemList,
+) -> None:
+    pts = nodes[["x", "y", "z"]].to_numpy()
+    finite = np.isfinite(pts).all(axis=1)
+    idx = np.flatnonzero(finite)
+    if len(idx) < 2:
+        return
+    pairs = cKDTree(pts[idx]).query_pairs(r=COINCIDENT_MM, output_type="ndarray")
+    if len(pairs) == 0:
+        return
+    a, b = idx[pairs.min(axis=1)], idx[pairs.max(axis=1)]
+    ids = nodes.index.to_numpy()
+    rows = spreadsheet_rows(records)
+    id_col = _col(settings, "nodes", "id")
+    for i, j in zip(a.tolist(), b.tolist(), strict=True):
+        if ids[i] == ids[j]:
+            continue  # a repeated id is reported as such
+        problems.add(
+            file,
+            int(rows[j]),
+            id_col,
+            ids[j],
+            f"a node at its own point; it lies within {COINCIDENT_MM:g} mm of node "
+            f"'{ids[i]}' (row {rows[i]}): merge them or move one",
+        )
+
+
+def _sections(df: pd.DataFrame, settings: Settings, problems: ProblemList) -> pd.DataFrame:
+    file = settings.files["sections"]
+    col = lambda ours: _col(settings, "sections", ours)  # noqa: E731
+    required_text(df, "name", file, col("name"), problems)
+    keep = _unique_ids(df, "name", "sections", settings, problems)
+    f = units.factor("length", settings.units.section)
+    rows = spreadsheet_rows(df.index)
+    out = pd.DataFrame(index=pd.Index(df["name"], name="name"))
+    for c in ("d", "b", "tf", "tw"):
+        v = numeric(df, c, file, col(c), problems)
+        bad = (v <= 0).to_numpy()
+        problems.add_many(file, rows[bad], col(c), v[bad], "a positive dimension")
+        out[c] = v.to_numpy() * f
+    if "r" in df:
+        r = numeric(df, "r", file, col("r"), problems, required=False)
+        bad = (r < 0).to_numpy()
+        problems.add_many(file, rows[bad], col("r"), r[bad], "a root radius of zero or more")
+        out["r"] = r.fillna(0.0).to_numpy() * f
+    else:
+        out["r"] = 0.0
+    thick = (2.0 * out["tf"] >= out["d"]).to_numpy()
+    problems.add_many(
+        file,
+        rows[thick],
+        col("tf"),
+        df.loc[thick, "tf"],
+        f"a flange thinner than half the depth '{col('d')}'",
+    )
+    wide = (out["tw"] >= out["b"]).to_numpy()
+    problems.add_many(
+        file,
+        rows[wide],
+        col("tw"),
+        df.loc[wide, "tw"],
+        f"a web thinner than the flange width '{col('b')}'",
+    )
+    stress = units.factor("stress", settings.units.stress)
+    if "fy" in df:
+        fy = numeric(df, "fy", file, col("fy"), problems, required=False) * stress
+        fy = fy.fillna(settings.default_fy)
+    else:
+        fy = pd.Series(settings.default_fy, index=df.index)
+    lo, hi = FY_RANGE_MPA
+    bad = ((fy < lo) | (fy > hi)).to_numpy()
+    problems.add_many(
+        file,
+        rows[bad],
+        col("fy") if "fy" in df else "(default fy from the settings)",
+        fy[bad].round(3),
+        f"a yield stress of {lo:g} to {hi:g} MPa once converted from '{settings.units.stress}' "
+        "(a value outside is almost always a units mistake: check [units] stress)",
+    )
+    out["fy"] = fy.to_numpy()
+    for c, power in OVERRIDES.items():
+        if c in df:
+            v = numeric(df, c, file, col(c), problems, required=False)
+            bad = (v <= 0).to_numpy()
+            problems.add_many(file, rows[bad], col(c), v[bad], "a positive value or an empty cell")
+            out[c] = v.to_numpy() * f**power
+    return out[keep]
+
+
+def _elements(
+    df: pd.DataFrame,
+    nodes: pd.DataFrame,
+    sections: pd.DataFrame,
+    settings: Settings,
+    problems: ProblemList,
+) -> pd.DataFrame:
+    file = settings.files["elements"]
+    col = lambda ours: _col(settings, "elements", ours)  # noqa: E731
+    for c in ("id", "start", "end", "section"):
+        required_text(df, c, file, col(c), problems)
+    keep = _unique_ids(df, "id", "elements", settings, problems)
+    rows = spreadsheet_rows(df.index)
+    for c in ("start", "end"):
+        unknown = (df[c].notna() & ~df[c].isin(nodes.index)).to_numpy()
+        problems.add_many(
+            file, rows[unknown], col(c), df.loc[unknown, c], "a node id of the nodes table"
+        )
+    unknown = (df["section"].notna() & ~df["section"].isin(sections.index)).to_numpy()
+    problems.add_many(
+        file,
+        rows[unknown],
+        col("section"),
+        df.loc[unknown, "section"],
+        "a section name of the sections table",
+    )
+    start = nodes.reindex(df["start"].to_numpy())[["x", "y", "z"]].to_numpy()
+    end = nodes.reindex(df["end"].to_numpy())[["x", "y", "z"]].to_numpy()
+    d = end - start
+    length = np.sqrt((d * d).sum(axis=1))
+    zero = (length < COINCIDENT_MM) | (df["start"] == df["end"]).to_numpy()
+    problems.add_many(
+        file,
+        rows[zero],
+        col("end"),
+        df.loc[zero, "end"],
+        f"an end node other than the start node, at least {COINCIDENT_MM:g} mm away "
+        "(zero-length element)",
+    )
+    out = pd.DataFrame(
+        {
+            "start": df["start"].to_numpy(),
+            "end": df["end"].to_numpy(),
+            "section": df["section"].to_numpy(),
+            "member": df["member"].to_numpy() if "member" in df else pd.NA,
+            "length": length,
+            "backwards": drawn_backwards(d[:, 0], d[:, 1], d[:, 2]),
+        },
+        index=pd.Index(df["id"], name="id"),
+    )
+    return out[keep]
+
+
+def _braces(
+    df: pd.DataFrame, nodes: pd.DataFrame, settings: Settings, problems: ProblemList
+) -> pd.DataFrame:
+    file = settings.files["braces"]
+    col = lambda ours: _col(settings, "braces", ours)  # noqa: E731
+    for c in ("node", "flange"):
+        required_text(df, c, file, col(c), problems)
+    rows = spreadsheet_rows(df.index)
+    unknown = (df["node"].notna() & ~df["node"].isin(nodes.index)).to_numpy()
+    problems.add_many(
+        file, rows[unknown], col("node"), df.loc[unknown, "node"], "a node id of the nodes table"
+    )
+    words = {w: w for w in FLANGE_WORDS}
+    for ours, extra in settings.flange_words.items():
+        words.update({e: ours for e in extra})
+    flange = df["flange"].astype("str").str.lower().map(words)
+    bad = (flange.isna() & df["flange"].notna()).to_numpy()
+    problems.add_many(
+        file,
+        rows[bad],
+        col("flange"),
+        df.loc[bad, "flange"],
+        f"a flange word: one of {sorted(words)} (more can be named in [flange_words])",
+    )
+    return pd.DataFrame({"node": df["node"].to_numpy(), "flange": flange.to_numpy()})
+
+
+def _supports(
+    df: pd.DataFrame, nodes: pd.DataFrame, settings: Settings, problems: ProblemList
+) -> pd.DataFrame:
+    file = settings.files["supports"]
+    col = lambda ours: _col(settings, "supports", ours)  # noqa: E731
+    required_text(df, "node", file, col("node"), problems)
+    rows = spreadsheet_rows(df.index)
+    unknown = (df["node"].notna() & ~df["node"].isin(nodes.index)).to_numpy()
+    problems.add_many(
+        file, rows[unknown], col("node"), df.loc[unknown, "node"], "a node id of the nodes table"
+    )
+    if "restrains" in df:
+        text = df["restrains"].fillna("all").astype("str").str.lower()
+        # One check per distinct value, not per row: support tables repeat a handful of values.
+        ok = {v: set(re.split(r"[\s,;+]+", v.strip())) <= RESTRAINT_WORDS for v in text.unique()}
+        bad = (~text.map(ok).astype(bool)).to_numpy()
+        problems.add_many(
+            file,
+            rows[bad],
+            col("restrains"),
+            df.loc[bad, "restrains"],
+            f"words from {sorted(RESTRAINT_WORDS)} separated by blanks or commas",
+        )
+    else:
+        text = pd.Series("all", index=df.index)
+    return pd.DataFrame({"node": df["node"].to_numpy(), "restrains": text.to_numpy()})
+
+
+def _forces(
+    df: pd.DataFrame, elements: pd.DataFrame, settings: Settings, problems: ProblemList
+) -> pd.DataFrame:
+    file = settings.files["forces"]
+    col = lambda ours: _col(settings, "forces", ours)  # noqa: E731
+    for c in ("element", "combination"):
+        required_text(df, c, file, col(c), problems)
+    if settings.combinations:
+        present = set(df["combination"].cat.categories)
+        for c in settings.combinations:
+            if c not in present:
+                problems.add(
+                    str(settings.source),
+                    None,
+                    "forces.combinations",
+                    c,
+                    f"a load combination present in {file}",
+                )
+        df = df[df["combination"].isin(settings.combinations)]
+        df["combination"] = df["combination"].cat.remove_unused_categories()
+    rows_of = lambda mask: spreadsheet_rows(df.index[mask])  # noqa: E731
+
+    # Element codes: categories re-based onto the elements table, so codes are element rows.
+    cats = df["element"].cat.categories
+    where = elements.index.get_indexer(cats)
+    raw_codes = df["element"].cat.codes.to_numpy()
+    ecode = np.where(raw_codes >= 0, where[raw_codes], -1)
+    unknown = (ecode < 0) & (raw_codes >= 0)
+    problems.add_many(
+        file,
+        rows_of(unknown),
+        col("element"),
+        df["element"][unknown],
+        "an element id of the elements table",
+    )
+
+    pos = numeric(df, "position", file, col("position"), problems).to_numpy()
+    moment = numeric(df, "M", file, col("M"), problems).to_numpy()
+    valid = ecode >= 0
+    length = np.where(valid, elements["length"].to_numpy()[np.maximum(ecode, 0)], np.nan)
+    if settings.positions == "fraction":
+        pos = pos * length
+        given_as = "a fraction from 0 to 1 of the element's length"
+    else:
+        pos = pos * units.factor("length", settings.units.length)
+        given_as = f"a distance from 0 to the element's length ({settings.units.length})"
+    slack = POSITION_TOLERANCE * length
+    outside = valid & ((pos < -slack) | (pos > length + slack))
+    problems.add_many(file, rows_of(outside), col("position"), df["position"][outside], given_as)
+    pos = np.clip(pos, 0.0, length)
+
+    ccode = df["combination"].cat.codes.to_numpy().astype(np.int64)
+    good = valid & (ccode >= 0) & np.isfinite(pos)
+    _station_counts(
+        ecode[good],
+        ccode[good],
+        pos[good],
+        elements,
+        df["combination"],
+        file,
+        col("element"),
+        problems,
+    )
+
+    m = moment * units.factor("moment", settings.units.moment)
+    if settings.positive_moment == "compresses_bottom":
+        m = -m
+    if settings.backwards_flips_sign:
+        flip = np.where(valid, elements["backwards"].to_numpy()[np.maximum(ecode, 0)], False)
+        m = np.where(flip, -m, m)
+    out = {
+        "element": pd.Categorical.from_codes(
+            np.where(valid, ecode, -1).astype(np.int32), categories=elements.index
+        ),
+        "combination": df["combination"].array,
+        "position": pos,
+        "M": m,
+    }
+    for c, kind in (("N", "force"), ("V", "force"), ("M_minor", "moment"), ("T", "moment")):
+        if c in df:
+            unit = settings.units.force if kind == "force" else settings.units.moment
+            v = numeric(df, c, file, col(c), problems, required=False)
+            out[c] = v.to_numpy() * units.factor(kind, unit)  # type: ignore[arg-type]
+    return pd.DataFrame(out)
+
+
+def _station_counts(
+    ecode: np.ndarray,
+    ccode: np.ndarray,
+    pos: np.ndarray,
+    elements: pd.DataFrame,
+    combos: pd.Series,
+    file: str,
+    element_col: str,
+    problems: ProblemList,
+) -> None:
+    """Record (element, combination) pairs with fewer than two positions, or missing altogether."""
+    if len(ecode) == 0:
+        return
+    cats = combos.cat.categories
+    ncomb = len(cats)
+    key = ecode.astype(np.int64) * ncomb + ccode
+    stats = (
+        pd.DataFrame({"key": key, "pos": pos}).groupby("key", sort=True)["pos"].agg(["min", "max"])
+    )
+    keys = stats.index.to_numpy()
+    ids = elements.index.to_numpy()
+    single = keys[(stats["max"] - stats["min"]).to_numpy() <= 0.0]
+    for k in single[:60].tolist():
+        problems.add(
+            file,
+            None,
+            element_col,
+            ids[k // ncomb],
+            "at least two different positions along the element in combination "
+            f"'{cats[k % ncomb]}'",
+        )
+    present = np.zeros((len(ids), ncomb), dtype=bool)
+    present[keys // ncomb, keys % ncomb] = True
+    used = np.asarray(present.any(axis=1))
+    missing = np.argwhere(~present & used[:, None])
+    for e, c in missing[:60].tolist():
+        problems.add(
+            file,
+            None,
+            element_col,
+            ids[e],
+            f"rows for combination '{cats[c]}', which other elements have",
+        )
+    problems.more += max(0, len(single) - 60) + max(0, len(missing) - 60)

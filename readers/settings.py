@@ -1,0 +1,308 @@
+"""The settings file: which file is which table, column names, CSV dialect, units, signs.
+
+Read with the standard library (``tomllib``). Every key is optional; with no settings file at
+all our canonical file names, column names and SI units apply (see README, "Input reference").
+"""
+
+from __future__ import annotations
+
+import tomllib
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from pathlib import Path
+from types import MappingProxyType
+from typing import Any, Literal
+
+from readers import units
+from readers.errors import InputError, Problem
+
+#: The settings file looked for in a model folder when none is named.
+SETTINGS_NAME = "flangewise.toml"
+
+TableName = Literal["nodes", "elements", "sections", "forces", "braces", "supports"]
+TABLES: tuple[TableName, ...] = ("nodes", "elements", "sections", "forces", "braces", "supports")
+
+#: Tables a model may leave out.
+OPTIONAL_TABLES: frozenset[str] = frozenset({"braces", "supports"})
+
+#: Canonical column names per table: (name, required).
+COLUMNS: dict[str, tuple[tuple[str, bool], ...]] = {
+    "nodes": (("id", True), ("x", True), ("y", True), ("z", True)),
+    "elements": (
+        ("id", True),
+        ("start", True),
+        ("end", True),
+        ("section", True),
+        ("member", False),
+    ),
+    "sections": (
+        ("name", True),
+        ("d", True),
+        ("b", True),
+        ("tf", True),
+        ("tw", True),
+        ("r", False),
+        ("fy", False),
+        ("A", False),
+        ("Ix", False),
+        ("Iy", False),
+        ("Sx", False),
+        ("Zx", False),
+        ("J", False),
+        ("Cw", False),
+    ),
+    "forces": (
+        ("element", True),
+        ("combination", True),
+        ("position", True),
+        ("M", True),
+        ("N", False),
+        ("V", False),
+        ("M_minor", False),
+        ("T", False),
+    ),
+    "braces": (("node", True), ("flange", True)),
+    "supports": (("node", True), ("restrains", False)),
+}
+
+FLANGE_WORDS: tuple[str, ...] = ("top", "bottom", "both")
+
+
+@dataclass(frozen=True)
+class Units:
+    """Units of the input files (names as in :mod:`readers.units`)."""
+
+    length: str = "m"
+    force: str = "kN"
+    moment: str = "kN*m"
+    section: str = "mm"
+    stress: str = "MPa"
+
+
+@dataclass(frozen=True)
+class Settings:
+    """Everything the readers need to map one program's export onto our model.
+
+    Attributes:
+        folder: the model folder; file names are relative to it.
+        source: the settings file read, or ``None`` for the built-in defaults.
+        files: file name per table.
+        columns: per table, our column name -> the file's column name.
+        delimiter: CSV field delimiter.
+        decimal: decimal mark ("." or ",").
+        units: units of the files.
+        positions: "distance" from the element's start node, or "fraction" of its length.
+        positive_moment: which flange a positive major-axis moment compresses.
+        backwards_flips_sign: whether the program reports the opposite moment sign for an element
+            drawn backwards (see README, "Sign convention").
+        combinations: load combinations to include; empty for all.
+        vertical: the global axis that points up.
+        default_fy: yield stress [MPa] for sections that give none.
+        flange_words: per flange word of ours, the extra words that mean it in the braces file.
+        engine: the raw tables of settings that belong to the engine (``[members]``, ``[check]``).
+    """
+
+    folder: Path
+    source: Path | None = None
+    files: Mapping[str, str] = field(
+        default_factory=lambda: MappingProxyType({t: f"{t}.csv" for t in TABLES})
+    )
+    columns: Mapping[str, Mapping[str, str]] = field(
+        default_factory=lambda: MappingProxyType(
+            {t: MappingProxyType({c: c for c, _ in COLUMNS[t]}) for t in TABLES}
+        )
+    )
+    delimiter: str = ","
+    decimal: str = "."
+    units: Units = field(default_factory=Units)
+    positions: Literal["distance", "fraction"] = "distance"
+    positive_moment: Literal["compresses_top", "compresses_bottom"] = "compresses_top"
+    backwards_flips_sign: bool = False
+    combinations: tuple[str, ...] = ()
+    vertical: Literal["z", "y"] = "z"
+    default_fy: float = 350.0
+    flange_words: Mapping[str, tuple[str, ...]] = field(
+        default_factory=lambda: MappingProxyType({w: () for w in FLANGE_WORDS})
+    )
+    engine: Mapping[str, Any] = field(default_factory=lambda: MappingProxyType({}))
+
+    def path(self, table: str) -> Path:
+        """Return the path of a table's file."""
+        return self.folder / self.files[table]
+
+
+_ENGINE_SECTIONS = ("members", "check")
+_CHOICES: dict[tuple[str, str], tuple[str, ...]] = {
+    ("forces", "positions"): ("distance", "fraction"),
+    ("forces", "positive_moment"): ("compresses_top", "compresses_bottom"),
+    ("geometry", "vertical"): ("z", "y"),
+}
+
+
+def _expect(problems: list[Problem], name: str, key: str, value: object, expected: str) -> None:
+    problems.append(Problem(name, None, key, str(value), expected))
+
+
+def read_settings(folder: Path | str, settings_file: Path | str | None = None) -> Settings:
+    """Read the settings for the model in ``folder``.
+
+    Args:
+        folder: the model folder holding the CSV files.
+        settings_file: a settings file to use; by default ``flangewise.toml`` in ``folder`` if it
+            exists, else the built-in defaults.
+
+    Raises:
+        InputError: the file is missing (when named), is not valid TOML, or holds an unknown key or
+            an unknown unit or choice. Every problem is listed.
+    """
+    folder = Path(folder)
+    if settings_file is None:
+        candidate = folder / SETTINGS_NAME
+        if not candidate.is_file():
+            return Settings(folder=folder)
+        settings_file = candidate
+    path = Path(settings_file)
+    name = str(path)
+    if not path.is_file():
+        raise InputError([Problem(name, None, None, None, "a settings file at this path")])
+    try:
+        data = tomllib.loads(path.read_text(encoding="utf-8"))
+    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+        raise InputError([Problem(name, None, None, None, f"valid TOML ({exc})")]) from None
+    return _settings_from_dict(folder, path, data)
+
+
+def _settings_from_dict(folder: Path, path: Path, data: dict[str, Any]) -> Settings:
+    name = str(path)
+    problems: list[Problem] = []
+    known = {"files", "columns", "csv", "units", "forces", "geometry", "material", "flange_words"}
+    for key in data:
+        if key not in known | set(_ENGINE_SECTIONS):
+            _expect(problems, name, key, key, f"one of the tables {sorted(known)}")
+
+    def table(key: str) -> dict[str, Any]:
+        value = data.get(key, {})
+        if not isinstance(value, dict):
+            _expect(problems, name, key, value, "a table ([" + key + "])")
+            return {}
+        return value
+
+    def check_keys(section: str, got: dict[str, Any], allowed: tuple[str, ...]) -> None:
+        for key in got:
+            if key not in allowed:
+                _expect(problems, name, f"{section}.{key}", key, f"one of {list(allowed)}")
+
+    files_in = table("files")
+    check_keys("files", files_in, TABLES)
+    files: dict[str, str] = {t: str(files_in.get(t, f"{t}.csv")) for t in TABLES}
+
+    columns_in = table("columns")
+    check_keys("columns", columns_in, TABLES)
+    columns: dict[str, Mapping[str, str]] = {}
+    for t in TABLES:
+        given = columns_in.get(t, {})
+        ours = tuple(c for c, _ in COLUMNS[t])
+        if not isinstance(given, dict):
+            _expect(problems, name, f"columns.{t}", given, "a table of our name = their name")
+            given = {}
+        check_keys(f"columns.{t}", given, ours)
+        columns[t] = MappingProxyType({c: str(given.get(c, c)) for c in ours})
+
+    csv_in = table("csv")
+    check_keys("csv", csv_in, ("delimiter", "decimal"))
+    delimiter = str(csv_in.get("delimiter", ","))
+    decimal = str(csv_in.get("decimal", "."))
+    if len(delimiter) != 1:
+        _expect(problems, name, "csv.delimiter", delimiter, "one character, such as ',' or ';'")
+    if decimal not in (".", ","):
+        _expect(problems, name, "csv.decimal", decimal, "'.' or ','")
+    if decimal == delimiter:
+        _expect(problems, name, "csv.decimal", decimal, "a decimal mark other than the delimiter")
+
+    units_in = table("units")
+    check_keys("units", units_in, ("length", "force", "moment", "section", "stress"))
+    defaults = Units()
+    unit_values = {k: str(units_in.get(k, getattr(defaults, k))) for k in defaults.__dict__}
+    kinds: dict[str, units.UnitKind] = {
+        "length": "length",
+        "section": "length",
+        "force": "force",
+        "moment": "moment",
+        "stress": "stress",
+    }
+    for key, kind in kinds.items():
+        try:
+            units.factor(kind, unit_values[key])
+        except KeyError:
+            _expect(
+                problems,
+                name,
+                f"units.{key}",
+                unit_values[key],
+                f"one of {units.known_units(kind)}",
+            )
+
+    forces_in = table("forces")
+    check_keys(
+        "forces",
+        forces_in,
+        ("positions", "positive_moment", "backwards_flips_sign", "combinations"),
+    )
+    geometry_in = table("geometry")
+    check_keys("geometry", geometry_in, ("vertical",))
+    for (section, key), allowed in _CHOICES.items():
+        value = (forces_in if section == "forces" else geometry_in).get(key)
+        if value is not None and value not in allowed:
+            _expect(problems, name, f"{section}.{key}", value, f"one of {list(allowed)}")
+    flips = forces_in.get("backwards_flips_sign", False)
+    if not isinstance(flips, bool):
+        _expect(problems, name, "forces.backwards_flips_sign", flips, "true or false")
+    combos = forces_in.get("combinations", [])
+    if not isinstance(combos, list):
+        _expect(problems, name, "forces.combinations", combos, "a list of combination names")
+        combos = []
+
+    material_in = table("material")
+    check_keys("material", material_in, ("fy",))
+    # 350 MPa is a common structural grade; a model in another grade names its own (README).
+    default_fy = 350.0
+    if "fy" in material_in:
+        fy = material_in["fy"]
+        if isinstance(fy, bool) or not isinstance(fy, int | float):
+            _expect(problems, name, "material.fy", fy, "a number in the stress unit")
+        else:
+            default_fy = float(fy) * units.STRESS_TO_MPA.get(unit_values["stress"], 1.0)
+
+    words_in = table("flange_words")
+    check_keys("flange_words", words_in, FLANGE_WORDS)
+    flange_words: dict[str, tuple[str, ...]] = {}
+    for w in FLANGE_WORDS:
+        given_words = words_in.get(w, [])
+        if isinstance(given_words, str):
+            given_words = [given_words]
+        if not isinstance(given_words, list):
+            _expect(problems, name, f"flange_words.{w}", given_words, "a word or a list of words")
+            given_words = []
+        flange_words[w] = tuple(str(x).strip().lower() for x in given_words)
+
+    engine = {k: data[k] for k in _ENGINE_SECTIONS if k in data}
+
+    if problems:
+        raise InputError(problems)
+    return Settings(
+        folder=folder,
+        source=path,
+        files=MappingProxyType(files),
+        columns=MappingProxyType(columns),
+        delimiter=delimiter,
+        decimal=decimal,
+        units=Units(**unit_values),
+        positions=forces_in.get("positions", "distance"),
+        positive_moment=forces_in.get("positive_moment", "compresses_top"),
+        backwards_flips_sign=bool(flips),
+        combinations=tuple(str(c) for c in combos),
+        vertical=geometry_in.get("vertical", "z"),
+        default_fy=default_fy,
+        flange_words=MappingProxyType(flange_words),
+        engine=MappingProxyType(engine),
+    )

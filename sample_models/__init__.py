@@ -1,0 +1,1 @@
+"""Bundled sample models (data only; see README.md in this folder)."""
