@@ -4,7 +4,8 @@ Two equal spans L continuous over a middle support, uniform load w (elastic beam
 structural analysis textbook's table of continuous-beam coefficients):
 both spans loaded:   R_end = 3wL/8, M_middle = -wL²/8;
 first span only:     M_middle = -wL²/16, the second span carries only the linear hogging diagram.
-Positive moment compresses the top flange (sagging). Run from this folder: ``python make_forces.py``.
+Positive moment compresses the top flange (sagging).
+Run from this folder: ``python make_forces.py``.
 """
 
 from __future__ import annotations
@@ -30,6 +31,7 @@ def moment(x: np.ndarray, w1: float, w2: float) -> np.ndarray:
 
 
 def main() -> None:
+    """Write forces.csv for both load combinations."""
     combos = {"ULS-1 gravity": (24.0, 24.0), "ULS-2 pattern": (24.0, 6.0)}
     # Elements B1..B8 along x; B6 is drawn backwards (from x = 9.0 m to x = 7.5 m).
     rows = []
