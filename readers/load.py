@@ -61,6 +61,24 @@ def load_model(folder: Path | str, settings_file: Path | str | None = None) -> M
     )
 
 
+def _match_ids(labels: pd.Index, ids: pd.Index) -> np.ndarray:
+    """Return, per label, the row of ``ids`` it names, or -1.
+
+    A parser may read all-digit ids as numbers and lose leading zeros ("007" -> "7"); such labels
+    also match an all-digit id equal as an integer, when that match is unique.
+    """
+    where = ids.get_indexer(labels).astype(np.int32)
+    miss = (where < 0) & np.asarray(labels.astype(str).str.fullmatch(r"\d+"), dtype=bool)
+    if miss.any():
+        digits = ids[np.asarray(ids.astype(str).str.fullmatch(r"\d+"), dtype=bool)]
+        as_int = pd.Index(digits.astype(np.int64))
+        if as_int.is_unique:
+            rows = ids.get_indexer(digits)
+            found = as_int.get_indexer(labels[miss].astype(np.int64))
+            where[miss] = np.where(found >= 0, rows[found], -1)
+    return where
+
+
 def _known(values: pd.Series, ids: pd.Index) -> pd.Series:
     """Return, per value, whether it is one of ``ids`` (a hash look-up, not a scan)."""
     found = pd.Index(ids.to_numpy(dtype=object)).get_indexer(values.to_numpy(dtype=object)) >= 0
@@ -332,24 +350,24 @@ def _forces(
         df["combination"] = df["combination"].cat.remove_unused_categories()
     rows_of = lambda mask: spreadsheet_rows(df.index[mask])  # noqa: E731
 
-    # Element codes: categories re-based onto the elements table, so codes are element rows.
-    cats = df["element"].cat.categories
-    where = elements.index.get_indexer(cats)
+    # Element codes re-based onto the elements table, so that codes are element row numbers.
+    # One gather through a lookup whose last entry (-1) catches the missing code -1.
+    lookup = np.append(_match_ids(df["element"].cat.categories, elements.index), -1)
     raw_codes = df["element"].cat.codes.to_numpy()
-    ecode = np.where(raw_codes >= 0, where[raw_codes], -1)
+    ecode = lookup[raw_codes]
     unknown = (ecode < 0) & (raw_codes >= 0)
-    problems.add_many(
-        file,
-        rows_of(unknown),
-        col("element"),
-        df["element"][unknown],
-        "an element id of the elements table",
-    )
+    if unknown.any():
+        problems.add_many(
+            file,
+            rows_of(unknown),
+            col("element"),
+            df["element"][unknown],
+            "an element id of the elements table",
+        )
 
     pos = numeric(df, "position", file, col("position"), problems).to_numpy()
     moment = numeric(df, "M", file, col("M"), problems).to_numpy()
-    valid = ecode >= 0
-    length = np.where(valid, elements["length"].to_numpy()[np.maximum(ecode, 0)], np.nan)
+    length = np.append(elements["length"].to_numpy(), np.nan)[ecode]
     if settings.positions == "fraction":
         pos = pos * length
         given_as = "a fraction from 0 to 1 of the element's length"
@@ -357,17 +375,21 @@ def _forces(
         pos = pos * units.factor("length", settings.units.length)
         given_as = f"a distance from 0 to the element's length ({settings.units.length})"
     slack = POSITION_TOLERANCE * length
-    outside = valid & ((pos < -slack) | (pos > length + slack))
-    problems.add_many(file, rows_of(outside), col("position"), df["position"][outside], given_as)
+    outside = (pos < -slack) | (pos > length + slack)  # False where length is NaN
+    if outside.any():
+        problems.add_many(
+            file, rows_of(outside), col("position"), df["position"][outside], given_as
+        )
     pos = np.clip(pos, 0.0, length)
 
-    ccode = df["combination"].cat.codes.to_numpy().astype(np.int64)
-    good = valid & (ccode >= 0) & np.isfinite(pos)
+    ccode = df["combination"].cat.codes.to_numpy()
+    good = (ecode >= 0) & (ccode >= 0) & np.isfinite(pos)
+    everything = bool(good.all())
     _station_counts(
-        ecode[good],
-        ccode[good],
-        pos[good],
-        rows_of(good),
+        ecode if everything else ecode[good],
+        ccode if everything else ccode[good],
+        pos if everything else pos[good],
+        df.index if everything else df.index[good],
         elements,
         df["combination"],
         file,
@@ -379,12 +401,10 @@ def _forces(
     if settings.positive_moment == "compresses_bottom":
         m = -m
     if settings.backwards_flips_sign:
-        flip = np.where(valid, elements["backwards"].to_numpy()[np.maximum(ecode, 0)], False)
+        flip = np.append(elements["backwards"].to_numpy(), False)[ecode]
         m = np.where(flip, -m, m)
     out = {
-        "element": pd.Categorical.from_codes(
-            np.where(valid, ecode, -1).astype(np.int32), categories=elements.index
-        ),
+        "element": pd.Categorical.from_codes(ecode, categories=elements.index),
         "combination": df["combination"].array,
         "position": pos,
         "M": m,
@@ -394,14 +414,14 @@ def _forces(
             unit = settings.units.force if kind == "force" else settings.units.moment
             v = numeric(df, c, file, col(c), problems, required=False)
             out[c] = v.to_numpy() * units.factor(kind, unit)  # type: ignore[arg-type]
-    return pd.DataFrame(out)
+    return pd.DataFrame(out, copy=False)
 
 
 def _station_counts(
     ecode: np.ndarray,
     ccode: np.ndarray,
     pos: np.ndarray,
-    rows: np.ndarray,
+    records: pd.Index,
     elements: pd.DataFrame,
     combos: pd.Series,
     file: str,
@@ -418,7 +438,7 @@ def _station_counts(
     cats = combos.cat.categories
     ncomb = len(cats)
     n_el = len(elements)
-    key = ecode.astype(np.int64) * ncomb + ccode
+    key = ecode.astype(np.int64) * ncomb + ccode.astype(np.int64)
     count = np.bincount(key, minlength=n_el * ncomb)
     total = np.bincount(key, weights=pos, minlength=n_el * ncomb)
     total_sq = np.bincount(key, weights=pos * pos, minlength=n_el * ncomb)
@@ -430,7 +450,7 @@ def _station_counts(
     if len(single):
         # The spreadsheet row of each such pair's first record, so the user can find it.
         hit = np.isin(key, single[:MAX_LISTED])
-        first = pd.Series(rows[hit]).groupby(key[hit]).min()
+        first = pd.Series(spreadsheet_rows(records[hit])).groupby(key[hit]).min()
     for k in single[:MAX_LISTED].tolist():
         problems.add(
             file,

@@ -4,12 +4,11 @@ from __future__ import annotations
 
 import csv
 from pathlib import Path
-from typing import Any
 
 import numpy as np
 import pandas as pd
 import pyarrow as pa
-import pyarrow.csv as pacsv
+import pyarrow.compute as pc
 
 from readers.errors import ProblemList
 from readers.settings import COLUMNS, OPTIONAL_TABLES, Settings
@@ -26,9 +25,6 @@ ID_COLUMNS: dict[str, tuple[str, ...]] = {
 
 #: Tables big enough that identifiers are stored as categories rather than text.
 CATEGORY_TABLES = frozenset({"forces"})
-
-#: Block size for pyarrow's CSV reader: large blocks mean few chunks to merge afterwards.
-_ARROW_BLOCK = 1 << 24
 
 
 def spreadsheet_rows(index: pd.Index | np.ndarray) -> np.ndarray:
@@ -54,43 +50,48 @@ def read_table(settings: Settings, table: str, problems: ProblemList) -> pd.Data
             return pd.DataFrame({c: pd.Series(dtype=object) for c, req in COLUMNS[table] if req})
         problems.add(name, None, None, None, f"the {table} table as a file at {path}")
         return None
-    usecols = _map_header(settings, table, path, problems)
-    if usecols is None:
+    header = _map_header(settings, table, path, problems)
+    if header is None:
         return None
+    usecols, width = header
     ids = [ours for ours in usecols.values() if ours in ID_COLUMNS[table]]
-    errors = (pd.errors.ParserError, UnicodeDecodeError, csv.Error, ValueError)
     if table in CATEGORY_TABLES:
-        try:
-            return _read_arrow(path, settings, usecols, ids)
-        except (pa.ArrowInvalid, *errors):
-            # pyarrow refuses some files pandas reads (values with line breaks in quotes, ragged
-            # rows it cannot place); fall back to the slower parser rather than refuse the file.
-            pass
+        # Big table: parse with inferred types (the parser's fast path) and encode ids afterwards;
+        # forcing text dtypes while parsing costs several times the whole read.
+        dtype = None
+    else:
+        dtype = {theirs: str for theirs, ours in usecols.items() if ours in ids}
     try:
         df = pd.read_csv(
             path,
             sep=settings.delimiter,
             decimal=settings.decimal,
-            usecols=list(usecols),
-            dtype={theirs: str for theirs, ours in usecols.items() if ours in ids},
-            encoding="utf-8-sig",
+            # Naming the columns costs the parser its fastest path; only do it when there are
+            # columns to skip.
+            usecols=list(usecols) if len(usecols) < width else None,
+            dtype=dtype,
+            encoding="utf-8-sig" if _has_bom(path) else "utf-8",
         )
-    except errors as exc:
+    except (pd.errors.ParserError, UnicodeDecodeError, csv.Error, ValueError) as exc:
         problems.add(name, None, None, None, f"a readable CSV file ({exc})")
         return None
-    df = df.rename(columns=usecols)
+    df = df.rename(columns=usecols)[list(usecols.values())]
     for col in ids:
-        text = df[col].astype("str").str.strip()
-        df[col] = text.where(df[col].notna() & (text != ""))
         if table in CATEGORY_TABLES:
-            df[col] = df[col].astype("category")
+            df[col] = _categorical(df[col])
+        else:
+            text = df[col].astype("str").str.strip()
+            df[col] = text.where(df[col].notna() & (text != ""))
     return df
 
 
 def _map_header(
     settings: Settings, table: str, path: Path, problems: ProblemList
-) -> dict[str, str] | None:
-    """Return {their column: our column} for the columns present, or ``None`` if one is missing."""
+) -> tuple[dict[str, str], int] | None:
+    """Return ({their column: our column}, number of columns in the file), or ``None``.
+
+    ``None`` when the header cannot be read or a required column is missing (recorded).
+    """
     name = settings.files[table]
     mapping = settings.columns[table]
     try:
@@ -114,65 +115,47 @@ def _map_header(
                 None,
                 f"a column '{theirs}' (our '{ours}'); the header has {list(present)}",
             )
-    return None if missing else usecols
+    return None if missing else (usecols, len(header.columns))
 
 
-def _read_arrow(
-    path: Path, settings: Settings, usecols: dict[str, str], ids: list[str]
-) -> pd.DataFrame:
-    """Read a big table with pyarrow's multi-threaded parser, ids dictionary-encoded as read.
+def _has_bom(path: Path) -> bool:
+    with path.open("rb") as fh:
+        return fh.read(3) == b"\xef\xbb\xbf"
 
-    Dictionary encoding while parsing avoids building millions of Python strings; on the forces
-    table this is what keeps the readers close to a plain ``pandas.read_csv`` (see
-    tests/benchmarks/bench_readers.py).
+
+def _categorical(column: pd.Series) -> pd.Categorical:
+    """Encode an id column as a categorical with stripped, non-empty text labels.
+
+    Arrow-backed text is dictionary-encoded by pyarrow (no Python string per row); other columns
+    (ids the parser took for numbers, object text) go through ``pandas.factorize``. Integral
+    numbers get integer labels ("101", not "101.0").
     """
-    dict_type = pa.dictionary(pa.int32(), pa.string())
-    their_ids = [theirs for theirs, ours in usecols.items() if ours in ids]
-    table = pacsv.read_csv(
-        path,
-        read_options=pacsv.ReadOptions(block_size=_ARROW_BLOCK, encoding="utf8"),
-        parse_options=pacsv.ParseOptions(delimiter=settings.delimiter),
-        convert_options=pacsv.ConvertOptions(
-            column_types={c: dict_type for c in their_ids},
-            include_columns=list(usecols),
-            decimal_point=settings.decimal,
-        ),
-    ).unify_dictionaries()
-    data: dict[str, Any] = {}
-    for theirs, ours in usecols.items():
-        column = table.column(theirs)
-        if ours in ids:
-            data[ours] = _categorical(column)
-        elif pa.types.is_floating(column.type) or pa.types.is_integer(column.type):
-            data[ours] = column.to_numpy().astype(np.float64, copy=False)
-        else:
-            # Not all numbers (text in a number column): keep the text, numeric() reports it.
-            data[ours] = pd.Series(column.to_pandas(), copy=False)
-    return pd.DataFrame(data)
-
-
-def _categorical(column: pa.ChunkedArray) -> pd.Categorical:
-    """Turn a dictionary-encoded arrow column into a categorical with stripped, non-empty labels."""
-    if column.num_chunks == 0:
-        return pd.Categorical([])
-    dictionary = pd.Index(column.chunk(0).dictionary.to_pylist(), dtype=object)
-    codes = np.concatenate(
-        [c.indices.to_numpy(zero_copy_only=False) for c in column.chunks]
-    ).astype(np.int32, copy=False)
-    nulls = column.null_count
-    if nulls:
-        valid = np.concatenate([c.is_valid().to_numpy(zero_copy_only=False) for c in column.chunks])
-        codes = np.where(valid, codes, -1).astype(np.int32)
-    labels = dictionary.astype(str).str.strip()
-    empty = np.asarray(labels == "")
+    if isinstance(column.dtype, pd.StringDtype) and column.dtype.storage == "pyarrow":
+        encoded = pc.dictionary_encode(pa.array(column.array))
+        if isinstance(encoded, pa.ChunkedArray):
+            encoded = encoded.combine_chunks()
+        codes = pc.fill_null(encoded.indices, -1).to_numpy(zero_copy_only=False)
+        uniques = pd.Index(encoded.dictionary.to_pylist(), dtype=object)
+    else:
+        codes, uniques = pd.factorize(column)
+        uniques = pd.Index(uniques)
+    if pd.api.types.is_float_dtype(uniques.dtype):
+        integral = np.isfinite(uniques) & (uniques == np.round(uniques))
+        labels = pd.Index(
+            np.where(integral, uniques.astype(np.int64).astype(str), uniques.astype(str)),
+            dtype=object,
+        )
+    else:
+        labels = pd.Index(uniques.astype(str).str.strip(), dtype=object)
+    codes = np.asarray(codes, dtype=np.int32)
+    if labels.is_unique and not (labels == "").any():
+        return pd.Categorical.from_codes(codes, categories=labels)
     # Labels equal after stripping (" B1" and "B1") share one code; blank labels mean "missing".
-    uniques, remap = np.unique(np.asarray(labels, dtype=object), return_inverse=True)
-    remap = np.where(empty, -1, remap)
-    keep = uniques != ""
-    renumber = np.cumsum(keep) - 1
-    final = np.where(remap >= 0, renumber[np.maximum(remap, 0)], -1).astype(np.int32)
-    codes = np.where(codes >= 0, final[np.maximum(codes, 0)], -1).astype(np.int32)
-    return pd.Categorical.from_codes(codes, categories=pd.Index(uniques[keep], dtype=object))
+    merged, remap = np.unique(np.asarray(labels, dtype=object), return_inverse=True)
+    keep = merged != ""
+    renumber = np.where(keep, np.cumsum(keep) - 1, -1)[remap].astype(np.int32)
+    codes = np.where(codes >= 0, renumber[np.maximum(codes, 0)], -1).astype(np.int32)
+    return pd.Categorical.from_codes(codes, categories=pd.Index(merged[keep], dtype=object))
 
 
 def numeric(
