@@ -10,7 +10,7 @@ import pandas as pd
 from scipy.spatial import cKDTree
 
 from readers import units
-from readers.errors import ProblemList
+from readers.errors import InputError, Problem, ProblemList
 from readers.model import COINCIDENT_MM, POSITION_TOLERANCE, Model, drawn_backwards
 from readers.settings import FLANGE_WORDS, TABLES, Settings, read_settings
 from readers.tables import numeric, read_table, required_text, spreadsheet_rows
@@ -38,6 +38,10 @@ def load_model(folder: Path | str, settings_file: Path | str | None = None) -> M
     Raises:
         InputError: listing every problem found (file, spreadsheet row, column, value, expected).
     """
+    if not Path(folder).is_dir():
+        raise InputError(
+            [Problem(str(folder), None, None, None, "a folder holding the model's CSV files")]
+        )
     settings = read_settings(folder, settings_file)
     problems = ProblemList()
     raw = {t: read_table(settings, t, problems) for t in TABLES}

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import csv
+import re
 from pathlib import Path
 
 import numpy as np
@@ -73,7 +74,7 @@ def read_table(settings: Settings, table: str, problems: ProblemList) -> pd.Data
             encoding="utf-8-sig" if _has_bom(path) else "utf-8",
         )
     except (pd.errors.ParserError, UnicodeDecodeError, csv.Error, ValueError) as exc:
-        problems.add(name, None, None, None, f"a readable CSV file ({exc})")
+        _unreadable(name, width, settings, exc, problems)
         return None
     df = df.rename(columns=usecols)[list(usecols.values())]
     for col in ids:
@@ -116,6 +117,25 @@ def _map_header(
                 f"a column '{theirs}' (our '{ours}'); the header has {list(present)}",
             )
     return None if missing else (usecols, len(header.columns))
+
+
+def _unreadable(
+    name: str, width: int, settings: Settings, exc: Exception, problems: ProblemList
+) -> None:
+    """Record why the parser gave up, with the row where it can be found in its message."""
+    text = " ".join(str(exc).split())
+    ragged = re.search(r"Expected (\d+) fields in line (\d+), saw (\d+)", text)
+    if ragged:
+        problems.add(
+            name,
+            int(ragged.group(2)),
+            None,
+            f"{ragged.group(3)} fields",
+            f"{width} fields as in the header (delimiter '{settings.delimiter}'; a decimal "
+            "comma in a comma-delimited file splits numbers: see [csv] in the settings)",
+        )
+    else:
+        problems.add(name, None, None, None, f"a readable CSV file ({text})")
 
 
 def _has_bom(path: Path) -> bool:

@@ -8,6 +8,8 @@ from __future__ import annotations
 
 import pytest
 
+import readers
+
 
 def test_base_model_loads(model):
     loaded = model.load()
@@ -164,3 +166,22 @@ def test_several_problems_are_all_reported(model):
         ("braces.csv", 2, "flange"),
     } <= places
     assert len(error.report().splitlines()) >= 5
+
+
+def test_row_with_too_many_fields_names_the_row(model):
+    folder = model.write()
+    lines = (folder / "nodes.csv").read_text(encoding="utf-8").splitlines()
+    # A decimal comma in a comma-delimited file splits one number into two fields (row 3).
+    lines[2] = "N2,4,0,0.0,3.0"
+    (folder / "nodes.csv").write_text("\n".join(lines) + "\n", encoding="utf-8")
+    with pytest.raises(readers.InputError) as info:
+        readers.load_model(folder)
+    problem = info.value.problems[0]
+    assert (problem.file, problem.row) == ("nodes.csv", 3)
+    assert "4 fields" in problem.expected
+
+
+def test_model_folder_that_does_not_exist(tmp_path):
+    with pytest.raises(readers.InputError) as info:
+        readers.load_model(tmp_path / "nowhere")
+    assert "folder" in info.value.report()
