@@ -11,6 +11,9 @@ from typing import Any, TypeVar
 
 import click
 
+from engine.layout import build_layout
+from postproc.files import write_atomic
+from postproc.members_view import members_text, segment_rows
 from postproc.summary import model_summary
 from readers import InputError, load_model
 
@@ -64,6 +67,38 @@ def summary(model: Path, settings_file: Path | None) -> None:
     """Load MODEL (a folder of CSV files), validate it and summarise what was read."""
     loaded = load_model(model, settings_file)
     click.echo(model_summary(loaded))
+    click.echo(CAUTION)
+
+
+@main.command()
+@click.argument("model", type=click.Path(file_okay=False, path_type=Path))
+@click.option(
+    "--settings",
+    "settings_file",
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="Settings file (TOML) to use instead of the model folder's flangewise.toml.",
+)
+@click.option(
+    "--csv",
+    "csv_file",
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="Also write one row per segment to this CSV file.",
+)
+@_input_errors_exit_2
+def members(model: Path, settings_file: Path | None, csv_file: Path | None) -> None:
+    """Show how MODEL's elements chain into members and where each flange is braced.
+
+    For every member: its elements in order, length, section, the braced nodes of each flange,
+    and its unbraced segments with start, end and length, and the load combinations that put
+    the segment's flange in compression.
+    """
+    loaded = load_model(model, settings_file)
+    layout = build_layout(loaded)
+    click.echo(members_text(layout.members, layout.segments, layout.diagrams))
+    if csv_file is not None:
+        rows = segment_rows(layout.members, layout.segments, layout.diagrams)
+        write_atomic(csv_file, lambda fh: rows.to_csv(fh, index=False, float_format="%.4f"))
+        click.echo(f"Segments written to {csv_file}")
     click.echo(CAUTION)
 
 

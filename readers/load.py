@@ -271,6 +271,7 @@ def _elements(
             "member": df["member"].to_numpy() if "member" in df else pd.NA,
             "length": length,
             "backwards": drawn_backwards(d[:, 0], d[:, 1], d[:, 2]),
+            "row": rows,
         },
         index=pd.Index(df["id"], name="id"),
     )

@@ -7,7 +7,8 @@ Tables (pandas DataFrames):
 ``nodes``      index ``id`` (str); columns ``x``, ``y``, ``z`` [mm].
 ``elements``   index ``id`` (str); columns ``start``, ``end`` (node ids), ``section`` (name),
                ``member`` (the user's own grouping, str or missing), ``length`` [mm],
-               ``backwards`` (bool, see :func:`drawn_backwards`).
+               ``backwards`` (bool, see :func:`drawn_backwards`), ``row`` (its spreadsheet row in
+               the elements file, for messages).
 ``sections``   index ``name`` (str); columns ``d``, ``b``, ``tf``, ``tw``, ``r`` [mm]
                (``r`` = 0 when not given), ``fy`` [MPa]; where the file gave them, the
                overrides ``A`` [mm²],

@@ -80,6 +80,31 @@ class Units:
 
 
 @dataclass(frozen=True)
+class MemberSettings:
+    """How elements chain into members and where flanges are braced (``[members]``).
+
+    Attributes:
+        angle_tolerance: largest angle [degrees] between two elements that still continue one
+            straight member.
+        breaks: node ids where every member ends, collinear or not.
+        connected_ends_brace: whether a member end that connects to another element or a support
+            braces both flanges.
+        infer_braces: whether an element framing into a member at ``infer_min_angle`` or more
+            braces it (marked as assumed wherever it is used).
+        infer_min_angle: smallest angle [degrees] between a member and an element framing into it
+            for that element to count as a brace.
+        infer_flange: the flange such an inferred brace holds.
+    """
+
+    angle_tolerance: float = 0.5
+    breaks: tuple[str, ...] = ()
+    connected_ends_brace: bool = True
+    infer_braces: bool = False
+    infer_min_angle: float = 60.0
+    infer_flange: Literal["top", "bottom", "both"] = "top"
+
+
+@dataclass(frozen=True)
 class Settings:
     """Everything the readers need to map one program's export onto our model.
 
@@ -99,7 +124,8 @@ class Settings:
         vertical: the global axis that points up.
         default_fy: yield stress [MPa] for sections that give none.
         flange_words: per flange word of ours, the extra words that mean it in the braces file.
-        engine: the raw tables of settings that belong to the engine (``[members]``, ``[check]``).
+        members: member chaining and bracing settings (``[members]``).
+        engine: the raw tables of settings read by later stages (``[check]``).
     """
 
     folder: Path
@@ -124,6 +150,7 @@ class Settings:
     flange_words: Mapping[str, tuple[str, ...]] = field(
         default_factory=lambda: MappingProxyType({w: () for w in FLANGE_WORDS})
     )
+    members: MemberSettings = field(default_factory=MemberSettings)
     engine: Mapping[str, Any] = field(default_factory=lambda: MappingProxyType({}))
 
     def path(self, table: str) -> Path:
@@ -132,6 +159,7 @@ class Settings:
 
 
 _ENGINE_SECTIONS = ("members", "check")
+_FLOAT = (int, float)
 _CHOICES: dict[tuple[str, str], tuple[str, ...]] = {
     ("forces", "positions"): ("distance", "fraction"),
     ("forces", "positive_moment"): ("compresses_top", "compresses_bottom"),
@@ -285,7 +313,8 @@ def _settings_from_dict(folder: Path, path: Path, data: dict[str, Any]) -> Setti
             given_words = []
         flange_words[w] = tuple(str(x).strip().lower() for x in given_words)
 
-    engine = {k: data[k] for k in _ENGINE_SECTIONS if k in data}
+    members = _member_settings(name, table("members"), problems)
+    engine = {k: data[k] for k in _ENGINE_SECTIONS if k in data and k != "members"}
 
     if problems:
         raise InputError(problems)
@@ -304,5 +333,39 @@ def _settings_from_dict(folder: Path, path: Path, data: dict[str, Any]) -> Setti
         vertical=geometry_in.get("vertical", "z"),
         default_fy=default_fy,
         flange_words=MappingProxyType(flange_words),
+        members=members,
         engine=MappingProxyType(engine),
     )
+
+
+def _member_settings(name: str, given: dict[str, Any], problems: list[Problem]) -> MemberSettings:
+    """Read ``[members]``; record every bad key or value."""
+    default = MemberSettings()
+    allowed = tuple(default.__dict__)
+    values: dict[str, Any] = {}
+    for key, value in given.items():
+        where = f"members.{key}"
+        if key not in allowed:
+            _expect(problems, name, where, key, f"one of {list(allowed)}")
+        elif key in ("angle_tolerance", "infer_min_angle"):
+            ok = isinstance(value, _FLOAT) and not isinstance(value, bool) and 0 < value < 90
+            if not ok:
+                _expect(problems, name, where, value, "an angle in degrees between 0 and 90")
+            else:
+                values[key] = float(value)
+        elif key in ("connected_ends_brace", "infer_braces"):
+            if not isinstance(value, bool):
+                _expect(problems, name, where, value, "true or false")
+            else:
+                values[key] = value
+        elif key == "breaks":
+            if not isinstance(value, list):
+                _expect(problems, name, where, value, "a list of node ids")
+            else:
+                values[key] = tuple(str(v).strip() for v in value)
+        elif key == "infer_flange":
+            if value not in FLANGE_WORDS:
+                _expect(problems, name, where, value, f"one of {list(FLANGE_WORDS)}")
+            else:
+                values[key] = value
+    return MemberSettings(**values)

@@ -1,0 +1,126 @@
+"""Moment diagrams of segments, per load combination, as flat arrays with offsets.
+
+Every force station is placed at its distance along its member (an element drawn backwards is
+turned round), sorted by (combination, member, element order, position). At a node where the
+moment jumps, the two elements meeting there each keep their own value, and since segments end at
+nodes each segment sees only the values of its own elements: the value on its own side.
+
+A segment's diagram for one combination is then one contiguous run of the sorted stations: the
+arrays ``x`` (distance from the segment's start, mm) and ``m`` (moment, N·mm, positive when it
+compresses the segment's flange) hold all runs back to back, and ``offsets`` says where each run
+starts. No Python loop runs per segment or per combination.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+from engine.members import Members
+from engine.segments import Segments
+from readers.model import Model
+
+
+@dataclass(frozen=True)
+class SegmentDiagrams:
+    """Diagrams of every (segment, combination) pair that has forces.
+
+    Attributes:
+        pairs: one row per pair, in the order of the runs: ``segment`` (row number in
+            ``Segments.table``), ``combination`` (code into ``combinations``), ``compressed``
+            (the segment's flange is in compression somewhere), ``demand`` [N·mm] (the largest
+            moment that compresses that flange, 0 when none does).
+        x: distance from the segment's start [mm], per station, runs back to back.
+        m: moment [N·mm] per station, positive when it compresses the segment's flange (for a
+            steep member's "either" segment: the model's own sign).
+        offsets: start of each run in ``x`` and ``m``; ``len(pairs) + 1`` entries.
+        combinations: the load combination names.
+    """
+
+    pairs: pd.DataFrame
+    x: np.ndarray
+    m: np.ndarray
+    offsets: np.ndarray
+    combinations: list[str]
+
+
+def member_stations(model: Model, members: Members) -> pd.DataFrame:
+    """Return every force row placed along its member, sorted for segment runs.
+
+    Columns: ``combination`` (code), ``element`` (row in ``Members.elements``), ``s`` [mm from
+    the member's start], ``M`` [N·mm]. Elements in no member (none today) and rows of elements
+    without a member are dropped.
+    """
+    f = model.forces
+    el = members.elements
+    # Element code (row of model.elements) -> row of members.elements (member order).
+    order_of = np.full(len(model.elements) + 1, -1, dtype=np.int64)
+    order_of[model.elements.index.get_indexer(el.index)] = np.arange(len(el))
+    ecode = f["element"].cat.codes.to_numpy()
+    erow = order_of[ecode]
+    pos = f["position"].to_numpy()
+    s0 = el["s0"].to_numpy()[erow]
+    length = (el["s1"] - el["s0"]).to_numpy()[erow]
+    rev = el["reversed"].to_numpy()[erow]
+    s = np.where(rev, s0 + length - pos, s0 + pos)
+    ccode = f["combination"].cat.codes.to_numpy().astype(np.int64)
+    # Within one element, stations sorted by s; at a shared node the earlier element comes first.
+    key = ccode * (len(el) + 1) + erow
+    order = np.lexsort((s, key))
+    return pd.DataFrame(
+        {
+            "combination": ccode[order],
+            "element": erow[order],
+            "s": s[order],
+            "M": f["M"].to_numpy()[order],
+        }
+    )
+
+
+def segment_diagrams(model: Model, members: Members, segments: Segments) -> SegmentDiagrams:
+    """Cut the member diagrams into per-segment, per-combination runs (see module docstring)."""
+    st = member_stations(model, members)
+    table = segments.table
+    n_seg = len(table)
+    combos = [str(c) for c in model.forces["combination"].cat.categories]
+    # Stations are sorted by (combination, member order); segment numbers grow along a member
+    # within each flange set, so each set's runs are already contiguous: no sort is needed.
+    combo_st = st["combination"].to_numpy()
+    seg_parts, row_parts = [], []
+    for column in ("first", "second"):
+        seg = segments.element_segments[column].to_numpy()[st["element"].to_numpy()]
+        rows = np.flatnonzero(seg >= 0)
+        seg_parts.append(seg[rows])
+        row_parts.append(rows)
+    seg_all = np.concatenate(seg_parts)
+    row_all = np.concatenate(row_parts)
+    combo = combo_st[row_all]
+    run_key = combo * n_seg + seg_all
+    new_run = np.r_[True, run_key[1:] != run_key[:-1]]
+    if len(row_parts[0]) and len(row_parts[1]):
+        new_run[len(row_parts[0])] = True  # the second set starts new runs
+    starts = np.flatnonzero(new_run)
+    offsets = np.r_[starts, len(run_key)]
+
+    flange = table["flange"].to_numpy()
+    sign = np.where(flange == "bottom", -1.0, 1.0)
+    seg_of_run = seg_all[starts]
+    m = st["M"].to_numpy()[row_all] * np.repeat(sign[seg_of_run], np.diff(offsets))
+    x = st["s"].to_numpy()[row_all] - np.repeat(
+        table["s_start"].to_numpy()[seg_of_run], np.diff(offsets)
+    )
+    either = flange[seg_of_run] == "either"
+    peak_pos = np.maximum.reduceat(m, starts) if len(m) else np.zeros(0)
+    peak_abs = np.maximum.reduceat(np.abs(m), starts) if len(m) else np.zeros(0)
+    demand = np.where(either, peak_abs, np.maximum(peak_pos, 0.0))
+    pairs = pd.DataFrame(
+        {
+            "segment": seg_of_run,
+            "combination": combo[starts],
+            "compressed": demand > 0.0,
+            "demand": demand,
+        }
+    )
+    return SegmentDiagrams(pairs=pairs, x=x, m=m, offsets=offsets, combinations=combos)

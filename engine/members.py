@@ -1,0 +1,326 @@
+"""Physical members: collinear elements of one section chained end to end.
+
+An analysis model splits a girder at every node where anything connects. Two elements continue one
+member through a node when they meet end to end there, are collinear within the angle tolerance,
+carry the same section, the node is not a member break, and their user member ids (if any) agree.
+A member therefore runs straight through T and X junctions and ends at free ends, corners (a portal
+knee), section changes, listed breaks and changes of user member id.
+
+Everything here is vectorized over elements; networkx holds the frame and labels the chains.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import networkx as nx
+import numpy as np
+import pandas as pd
+
+from readers.errors import InputError, Problem
+from readers.model import Model, drawn_backwards
+from readers.settings import MemberSettings
+
+#: Members steeper than this from horizontal [degrees] have no top or bottom flange (common
+#: practice: a column's flanges face sideways, "top" means nothing there).
+STEEP_DEGREES = 45.0
+
+
+@dataclass(frozen=True)
+class Members:
+    """Members of a model and where their elements lie along them (all lengths in mm).
+
+    Attributes:
+        table: one row per member, index ``member`` (id): ``section``, ``length``, ``n_elements``,
+            ``x0, y0, z0`` / ``x1, y1, z1`` (start / end point), ``steep`` (bool),
+            ``user_id`` (the elements' own member id, or missing).
+        elements: one row per chained element, index ``element`` (id), in member order:
+            ``member``, ``order`` (0 at the member's start), ``s0``, ``s1`` (distances of the
+            element's ends from the member's start, s0 < s1), ``reversed`` (drawn against the
+            member's direction).
+        stations: one row per node along a member, in order: ``member``, ``node``, ``s``,
+            ``end`` ("start", "end" or ""), ``others`` (how many elements of other members meet
+            there), ``supported`` (the node is in the supports table).
+        graph: the frame as a networkx multigraph: nodes are node ids, edges are elements (key =
+            element id).
+    """
+
+    table: pd.DataFrame
+    elements: pd.DataFrame
+    stations: pd.DataFrame
+    graph: nx.MultiGraph
+
+
+def frame_graph(model: Model) -> nx.MultiGraph:
+    """Return the frame as a multigraph: node ids as nodes, one edge per element (key = its id)."""
+    graph = nx.MultiGraph()
+    graph.add_nodes_from(model.nodes.index)
+    e = model.elements
+    graph.add_edges_from(zip(e["start"], e["end"], e.index, strict=True))
+    return graph
+
+
+def build_members(model: Model, settings: MemberSettings) -> Members:
+    """Chain the model's elements into straight members.
+
+    Args:
+        model: the validated model.
+        settings: tolerance, breaks and bracing choices (``[members]``).
+
+    Raises:
+        InputError: two elements overlap, or elements given one user member id do not form one
+            straight chain (named by file, row and column).
+    """
+    graph = frame_graph(model)
+    el = model.elements
+    n = len(el)
+    xyz = model.nodes[["x", "y", "z"]].to_numpy()
+    si = model.nodes.index.get_indexer(pd.Index(el["start"]))
+    ei = model.nodes.index.get_indexer(pd.Index(el["end"]))
+    vec = xyz[ei] - xyz[si]
+    unit = vec / el["length"].to_numpy()[:, None]
+
+    pairs = _continuations(model, settings, si, ei, unit)
+    chain_graph = nx.Graph()
+    chain_graph.add_nodes_from(range(n))
+    chain_graph.add_edges_from(pairs.tolist())
+    label = np.empty(n, dtype=np.int64)
+    for k, comp in enumerate(nx.connected_components(chain_graph)):
+        label[list(comp)] = k
+    n_members = int(label.max()) + 1 if n else 0
+
+    # Member direction: orient every element like the first element of its chain, add the
+    # oriented vectors, and point the sum "forwards" (+x, else +y, else up). Independent of the
+    # direction elements were drawn in and of row order (up to that first choice's sign).
+    first = np.full(n_members, n, dtype=np.int64)
+    np.minimum.at(first, label, np.arange(n))
+    sign = np.where((unit * unit[first[label]]).sum(axis=1) >= 0.0, 1.0, -1.0)
+    total = np.zeros((n_members, 3))
+    np.add.at(total, label, vec * sign[:, None])
+    back = drawn_backwards(total[:, 0], total[:, 1], total[:, 2])
+    total[back] *= -1.0
+    axis = total / np.linalg.norm(total, axis=1)[:, None]
+
+    # Distances along the member axis from a common origin, then from the member's start.
+    origin = xyz[si[first]]
+    t_start = ((xyz[si] - origin[label]) * axis[label]).sum(axis=1)
+    t_end = ((xyz[ei] - origin[label]) * axis[label]).sum(axis=1)
+    lo, hi = np.minimum(t_start, t_end), np.maximum(t_start, t_end)
+    t0 = np.full(n_members, np.inf)
+    np.minimum.at(t0, label, lo)
+    t1 = np.full(n_members, -np.inf)
+    np.maximum.at(t1, label, hi)
+
+    members = _member_table(model, label, first, origin, axis, t0, t1)
+    rank = members["rank"].to_numpy()
+    mem_rank = rank[label]
+    s0, s1 = lo - t0[label], hi - t0[label]
+    order = np.lexsort((s0, mem_rank))
+    names = members.index.to_numpy()
+    elements = pd.DataFrame(
+        {
+            "member": names[label][order],
+            "s0": s0[order],
+            "s1": s1[order],
+            "reversed": (t_start > t_end)[order],
+        },
+        index=pd.Index(el.index[order], name="element"),
+    )
+    counts = np.bincount(mem_rank, minlength=n_members)
+    starts = np.repeat(np.cumsum(counts) - counts, counts)
+    elements.insert(1, "order", np.arange(n) - starts)
+    members = members.sort_values("rank").drop(columns="rank")
+    members.insert(2, "n_elements", counts)
+
+    stations = _stations(model, graph, elements, si, ei, order)
+    return Members(table=members, elements=elements, stations=stations, graph=graph)
+
+
+def _continuations(
+    model: Model,
+    settings: MemberSettings,
+    si: np.ndarray,
+    ei: np.ndarray,
+    unit: np.ndarray,
+) -> np.ndarray:
+    """Return (k, 2) element index pairs that continue one member through a shared node.
+
+    Every pair of element ends at one node is looked at once (a self-join on the node): opposite
+    directions within the tolerance continue; equal directions within it are overlapping elements.
+    """
+    el = model.elements
+    n = len(el)
+    end_node = np.concatenate([si, ei])
+    end_elem = np.concatenate([np.arange(n), np.arange(n)])
+    # Direction pointing from the node into the element.
+    end_dir = np.concatenate([unit, -unit])
+    ends = pd.DataFrame({"node": end_node, "end": np.arange(2 * n)})
+    joined = ends.merge(ends, on="node", suffixes=("_a", "_b"))
+    joined = joined[joined["end_a"].to_numpy() < joined["end_b"].to_numpy()]
+    a, b = joined["end_a"].to_numpy(), joined["end_b"].to_numpy()
+    cos = (end_dir[a] * end_dir[b]).sum(axis=1)
+    tol = np.cos(np.radians(settings.angle_tolerance))
+    ea, eb = end_elem[a], end_elem[b]
+
+    overlap = cos >= tol
+    if overlap.any():
+        raise InputError(
+            [
+                _element_problem(
+                    model,
+                    y,
+                    f"no overlap with element '{el.index[x]}': both leave node "
+                    f"'{model.nodes.index[end_node[i]]}' in the same direction (remove one, or "
+                    "split them at common nodes)",
+                )
+                for x, y, i in zip(ea[overlap], eb[overlap], a[overlap], strict=True)
+            ]
+        )
+    section = el["section"].to_numpy()
+    user = el["member"].astype(object).where(el["member"].notna(), "").to_numpy()
+    breaks = np.zeros(len(model.nodes), dtype=bool)
+    listed = model.nodes.index.get_indexer(pd.Index(list(settings.breaks)))
+    breaks[listed[listed >= 0]] = True
+    keep = (
+        (cos <= -tol) & (section[ea] == section[eb]) & (user[ea] == user[eb]) & ~breaks[end_node[a]]
+    )
+    a, b = a[keep], b[keep]
+    # An element end continues into at most one other element; more means three or more collinear
+    # elements at one node, which overlap.
+    used = np.bincount(np.concatenate([a, b]), minlength=2 * n)
+    if (used > 1).any():
+        raise InputError(
+            [
+                _element_problem(
+                    model,
+                    end_elem[e],
+                    "one element continuing it in line at node "
+                    f"'{model.nodes.index[end_node[e]]}', not several (collinear elements overlap)",
+                )
+                for e in np.flatnonzero(used > 1)
+            ]
+        )
+    pairs = np.column_stack([end_elem[a], end_elem[b]])
+    _check_user_ids(model, pairs)
+    return pairs
+
+
+def _check_user_ids(model: Model, pairs: np.ndarray) -> None:
+    """Elements that share a user member id must chain into one member."""
+    user = model.elements["member"]
+    if user.isna().all():
+        return
+    n = len(user)
+    g = nx.Graph()
+    g.add_nodes_from(range(n))
+    g.add_edges_from(pairs.tolist())
+    comp = np.empty(n, dtype=np.int64)
+    for k, c in enumerate(nx.connected_components(g)):
+        comp[list(c)] = k
+    frame = pd.DataFrame({"user": user.to_numpy(), "comp": comp}).dropna()
+    spread = frame.groupby("user")["comp"].nunique()
+    bad = spread[spread > 1]
+    if len(bad):
+        rows = model.elements.reset_index().groupby("member")["row"].min()
+        raise InputError(
+            [
+                Problem(
+                    model.settings.files["elements"],
+                    int(rows[u]),
+                    model.settings.columns["elements"]["member"],
+                    str(u),
+                    "elements of one member id to form one straight chain of one section (they "
+                    "split at a corner, a section change, a gap or a break node)",
+                )
+                for u in bad.index
+            ]
+        )
+
+
+def _element_problem(model: Model, e: int, expected: str) -> Problem:
+    """A problem located at element row ``e`` of the elements file."""
+    return Problem(
+        model.settings.files["elements"],
+        int(model.elements["row"].to_numpy()[e]),
+        model.settings.columns["elements"]["id"],
+        str(model.elements.index[e]),
+        expected,
+    )
+
+
+def _member_table(
+    model: Model,
+    label: np.ndarray,
+    first: np.ndarray,
+    origin: np.ndarray,
+    axis: np.ndarray,
+    t0: np.ndarray,
+    t1: np.ndarray,
+) -> pd.DataFrame:
+    """One row per member, named and ranked independently of row order and node numbering."""
+    el = model.elements
+    p0 = origin + axis * t0[:, None]
+    p1 = origin + axis * t1[:, None]
+    horizontal = np.hypot(axis[:, 0], axis[:, 1])
+    steep = np.degrees(np.arctan2(np.abs(axis[:, 2]), horizontal)) > STEEP_DEGREES
+    # Rank by geometry rounded to 0.1 mm: row order and numbering cannot change it.
+    r0, r1 = np.round(p0, 1), np.round(p1, 1)
+    rank_order = np.lexsort((r1[:, 2], r1[:, 1], r1[:, 0], r0[:, 2], r0[:, 1], r0[:, 0]))
+    rank = np.empty(len(first), dtype=np.int64)
+    rank[rank_order] = np.arange(len(first))
+    user = el["member"].to_numpy()[first]
+    has_user = pd.notna(user)
+    generated = np.array([f"M{r + 1}" for r in rank], dtype=object)
+    names = np.where(has_user, user.astype(object), generated)
+    return pd.DataFrame(
+        {
+            "rank": rank,
+            "section": el["section"].to_numpy()[first],
+            "length": t1 - t0,
+            "x0": p0[:, 0],
+            "y0": p0[:, 1],
+            "z0": p0[:, 2],
+            "x1": p1[:, 0],
+            "y1": p1[:, 1],
+            "z1": p1[:, 2],
+            "steep": steep,
+            "user_id": np.where(has_user, user.astype(object), None),
+        },
+        index=pd.Index(names, name="member"),
+    )
+
+
+def _stations(
+    model: Model,
+    graph: nx.MultiGraph,
+    elements: pd.DataFrame,
+    si: np.ndarray,
+    ei: np.ndarray,
+    order: np.ndarray,
+) -> pd.DataFrame:
+    """The nodes along each member, in order, with which ends connect to anything else."""
+    node_ids = model.nodes.index.to_numpy()
+    rev = elements["reversed"].to_numpy()
+    first_node = np.where(rev, ei[order], si[order])  # node at s0
+    last_node = np.where(rev, si[order], ei[order])  # node at s1
+    member = elements["member"].to_numpy()
+    is_first = elements["order"].to_numpy() == 0
+    st = pd.DataFrame(
+        {
+            "member": np.concatenate([member[is_first], member]),
+            "node": np.concatenate([node_ids[first_node[is_first]], node_ids[last_node]]),
+            "s": np.concatenate([elements["s0"].to_numpy()[is_first], elements["s1"].to_numpy()]),
+            "seq": np.concatenate([np.flatnonzero(is_first) * 2, np.arange(len(member)) * 2 + 1]),
+        }
+    ).sort_values("seq", kind="stable")
+    st = st.drop(columns="seq").reset_index(drop=True)
+    mem = st["member"].to_numpy()
+    starts = np.r_[True, mem[1:] != mem[:-1]]
+    ends = np.r_[mem[1:] != mem[:-1], True]
+    st["end"] = np.where(starts, "start", np.where(ends, "end", ""))
+    degree = dict(graph.degree())
+    deg = st["node"].map(degree).to_numpy()
+    own = np.where(st["end"].to_numpy() == "", 2, 1)  # this member's own elements at the node
+    st["others"] = deg - own
+    st["supported"] = st["node"].isin(set(model.supports["node"])).to_numpy()
+    return st
