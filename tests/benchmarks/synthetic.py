@@ -31,6 +31,16 @@ def write_model(folder: Path, elements: int, combinations: int, stations: int = 
     pd.DataFrame(
         {"id": el_ids, "start": node_ids[starts], "end": node_ids[starts + 1], "section": "S1"}
     ).to_csv(folder / "elements.csv", index=False)
+    # Purlin-like top-flange braces at every interior node of each beam.
+    interior = (
+        np.arange(beams)[:, None] * (per_beam + 1) + np.arange(1, per_beam)[None, :]
+    ).ravel()
+    pd.DataFrame({"node": node_ids[interior], "flange": "top"}).to_csv(
+        folder / "braces.csv", index=False
+    )
+    pd.DataFrame({"node": node_ids[:: per_beam + 1], "restrains": "all"}).to_csv(
+        folder / "supports.csv", index=False
+    )
     pd.DataFrame(
         {"name": ["S1"], "d": [407.0], "b": [178.0], "tf": [12.8], "tw": [7.7], "fy": [350.0]}
     ).to_csv(folder / "sections.csv", index=False)
