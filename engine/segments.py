@@ -21,6 +21,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
+from engine.flags import join_words
 from engine.members import Members
 from readers.model import Model
 from readers.settings import MemberSettings
@@ -91,7 +92,7 @@ def brace_stations(model: Model, members: Members, settings: MemberSettings) -> 
         assumed = np.where(steep, inferred_top & inferred_bottom, inferred)
         firm = supported | connected_end | brace
         st[flange] = firm | assumed
-        st[f"{flange}_by"] = _words(
+        st[f"{flange}_by"] = join_words(
             {
                 "support": supported,
                 "connected end": connected_end,
@@ -106,14 +107,6 @@ def brace_stations(model: Model, members: Members, settings: MemberSettings) -> 
         {"member": st["member"].to_numpy()[ignored], "node": st["node"].to_numpy()[ignored]}
     )
     return st
-
-
-def _words(flags: dict[str, np.ndarray]) -> np.ndarray:
-    """Join the names of the true flags of each row with "+" (vectorized over rows)."""
-    out = np.full(len(next(iter(flags.values()))), "", dtype=object)
-    for word, flag in flags.items():
-        out = np.where(flag, np.where(out == "", word, out + "+" + word), out)
-    return out
 
 
 def _framed_at_angle(

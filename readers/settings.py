@@ -104,6 +104,29 @@ class MemberSettings:
     infer_flange: Literal["top", "bottom", "both"] = "top"
 
 
+GradientMethod = Literal["end_moment", "quarter_point", "cb"]
+GRADIENT_METHODS: tuple[str, ...] = ("end_moment", "quarter_point", "cb")
+
+
+@dataclass(frozen=True)
+class CheckSettings:
+    """Material constants, resistance factor and the design-basis gradient method (``[check]``).
+
+    Attributes:
+        gradient: the moment-gradient method the check is based on: "end_moment" (ω2 from κ,
+            SANS 10162-1:2011 cl. 13.6(a)), "quarter_point" (CSA S16-14 cl. 13.6(a)(ii)) or "cb"
+            (AISC 360-16 Eq. F1-1). All three are always reported.
+        E: elastic modulus [MPa].
+        G: shear modulus [MPa].
+        phi: resistance factor φ [-].
+    """
+
+    gradient: GradientMethod = "end_moment"
+    E: float = 200_000.0
+    G: float = 77_000.0
+    phi: float = 0.9
+
+
 @dataclass(frozen=True)
 class Settings:
     """Everything the readers need to map one program's export onto our model.
@@ -125,7 +148,7 @@ class Settings:
         default_fy: yield stress [MPa] for sections that give none.
         flange_words: per flange word of ours, the extra words that mean it in the braces file.
         members: member chaining and bracing settings (``[members]``).
-        engine: the raw tables of settings read by later stages (``[check]``).
+        check: material constants, φ and the gradient method (``[check]``).
     """
 
     folder: Path
@@ -151,7 +174,7 @@ class Settings:
         default_factory=lambda: MappingProxyType({w: () for w in FLANGE_WORDS})
     )
     members: MemberSettings = field(default_factory=MemberSettings)
-    engine: Mapping[str, Any] = field(default_factory=lambda: MappingProxyType({}))
+    check: CheckSettings = field(default_factory=CheckSettings)
 
     def path(self, table: str) -> Path:
         """Return the path of a table's file."""
@@ -314,7 +337,7 @@ def _settings_from_dict(folder: Path, path: Path, data: dict[str, Any]) -> Setti
         flange_words[w] = tuple(str(x).strip().lower() for x in given_words)
 
     members = _member_settings(name, table("members"), problems)
-    engine = {k: data[k] for k in _ENGINE_SECTIONS if k in data and k != "members"}
+    check = _check_settings(name, table("check"), problems)
 
     if problems:
         raise InputError(problems)
@@ -334,7 +357,7 @@ def _settings_from_dict(folder: Path, path: Path, data: dict[str, Any]) -> Setti
         default_fy=default_fy,
         flange_words=MappingProxyType(flange_words),
         members=members,
-        engine=MappingProxyType(engine),
+        check=check,
     )
 
 
@@ -369,3 +392,29 @@ def _member_settings(name: str, given: dict[str, Any], problems: list[Problem]) 
             else:
                 values[key] = value
     return MemberSettings(**values)
+
+
+def _check_settings(name: str, given: dict[str, Any], problems: list[Problem]) -> CheckSettings:
+    """Read ``[check]``; record every bad key or value."""
+    default = CheckSettings()
+    allowed = tuple(default.__dict__)
+    values: dict[str, Any] = {}
+    ranges = {"E": (1.0e4, 1.0e6), "G": (1.0e4, 1.0e6), "phi": (0.5, 1.0)}
+    for key, value in given.items():
+        where = f"check.{key}"
+        if key not in allowed:
+            _expect(problems, name, where, key, f"one of {list(allowed)}")
+        elif key == "gradient":
+            if value not in GRADIENT_METHODS:
+                _expect(problems, name, where, value, f"one of {list(GRADIENT_METHODS)}")
+            else:
+                values[key] = value
+        else:
+            lo, hi = ranges[key]
+            ok = isinstance(value, _FLOAT) and not isinstance(value, bool) and lo <= value <= hi
+            if not ok:
+                unit = "" if key == "phi" else " MPa"
+                _expect(problems, name, where, value, f"a number from {lo:g} to {hi:g}{unit}")
+            else:
+                values[key] = float(value)
+    return CheckSettings(**values)

@@ -45,7 +45,8 @@ def main() -> None:
             segments = build_segments(model, members, model.settings.members)
             ours.append(time.perf_counter() - t0)
         print(
-            f"{len(el):,} elements -> {len(members.table):,} members, {len(segments.table):,} segments"
+            f"{len(el):,} elements -> {len(members.table):,} members, "
+            f"{len(segments.table):,} segments"
         )
         print(f"networkx multigraph of the elements   best {min(graph_times):6.2f} s")
         print(f"build_members + build_segments        best {min(ours):6.2f} s")

@@ -1,0 +1,173 @@
+"""The buckling check of every segment and load combination, vectorized over all pairs.
+
+For each (segment, combination) pair whose flange is in compression: the three gradient factors
+side by side, the design-basis factor with its fall-backs to 1.0, Mcr, Mr, the demand and the
+utilization, with flags saying where and why the tool was conservative.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+from engine import gradient, resistance
+from engine.flags import join_words
+from engine.layout import Layout, build_layout
+from engine.sections import section_class, section_properties
+from readers.model import Model
+from readers.settings import CheckSettings
+
+#: Column holding each method's factor in the results.
+METHOD_COLUMN = {"end_moment": "omega2_end", "quarter_point": "omega2_qp", "cb": "cb"}
+
+
+@dataclass(frozen=True)
+class CheckResult:
+    """Results of a check.
+
+    Attributes:
+        results: one row per (segment, combination) pair with forces; internal units (mm, N,
+            N·mm, MPa). Columns: see :func:`check_pairs`.
+        sections: section properties and class per section name.
+        layout: the members, segments and diagrams the check used.
+        settings: the check settings used.
+    """
+
+    results: pd.DataFrame
+    sections: pd.DataFrame
+    layout: Layout
+    settings: CheckSettings
+
+
+def check_model(model: Model, settings: CheckSettings | None = None) -> CheckResult:
+    """Check every segment of ``model`` in every load combination.
+
+    Args:
+        model: the validated model.
+        settings: check settings; the model's own ``[check]`` settings by default.
+    """
+    settings = settings or model.settings.check
+    layout = build_layout(model)
+    props = section_properties(model.sections)
+    flange_cls, web_cls, cls = section_class(
+        props["b"], props["tf"], props["d"], props["tw"], props["fy"]
+    )
+    props = props.assign(class_flange=flange_cls, class_web=web_cls, section_class=cls)
+    return CheckResult(
+        results=check_pairs(layout, props, settings),
+        sections=props,
+        layout=layout,
+        settings=settings,
+    )
+
+
+def check_pairs(layout: Layout, props: pd.DataFrame, settings: CheckSettings) -> pd.DataFrame:
+    """Return one row per (segment, combination) pair with every number of the check.
+
+    Columns: ``segment``, ``member``, ``flange``, ``combination``, ``section``, ``length`` [mm],
+    ``section_class``, ``M_start``, ``M_end`` [N·mm, positive compresses the segment's flange],
+    ``M_max``, ``inside_peak``, ``inside_peak_at`` [mm], ``M_a``, ``M_b``, ``M_c``, ``kappa``,
+    ``omega2_formula``, ``omega2_end``, ``omega2_qp``, ``cb``, ``method``, ``factor``,
+    ``Mcr``, ``M_base`` (Mp for class 1-2, My for class 3), ``Mr``, ``demand``, ``utilization``,
+    ``status`` ("ok", "over", "not critical", "not checked"), ``flags`` and one boolean column
+    per flag name (``flag_<name>``).
+    """
+    seg = layout.segments.table
+    diag = layout.diagrams
+    pairs = diag.pairs
+    k = pairs["segment"].to_numpy()
+    length = seg["length"].to_numpy()[k]
+    runs = gradient.Runs(x=diag.x, m=diag.m, offsets=diag.offsets, length=length)
+
+    ends = gradient.end_moment_omega2(runs)
+    m_max, m_a, m_b, m_c = gradient.quarter_point_moments(runs)
+    omega2_qp = gradient.omega2_quarter_point(m_max, m_a, m_b, m_c)
+    cb = gradient.cb_aisc(m_max, m_a, m_b, m_c)
+    m_min_signed = np.minimum.reduceat(diag.m, runs.starts) if len(k) else np.zeros(0)
+    m_max_signed = np.maximum.reduceat(diag.m, runs.starts) if len(k) else np.zeros(0)
+    sign_change = (m_max_signed > 1.0e-3 * m_max) & (m_min_signed < -1.0e-3 * m_max)
+
+    cantilever = seg["cantilever"].to_numpy()[k]
+    end_unbraced = ~(seg["braced_start"].to_numpy()[k] & seg["braced_end"].to_numpy()[k])
+    fallback = cantilever | end_unbraced | ends.few_stations
+    by_method = {"end_moment": ends.omega2, "quarter_point": omega2_qp, "cb": cb}
+    factor = np.where(fallback, 1.0, by_method[settings.gradient])
+    capped = ~fallback & (factor >= gradient.OMEGA2_CAP) & (settings.gradient != "cb")
+
+    member = seg["member"].to_numpy()[k]
+    section = layout.members.table["section"].reindex(member).to_numpy()
+    p = props.reindex(section)
+    cls = p["section_class"].to_numpy()
+    m_base = np.where(cls <= 2, p["Zx"].to_numpy(), p["Sx"].to_numpy()) * p["fy"].to_numpy()
+    mcr = resistance.m_cr(
+        factor,
+        length,
+        p["Iy"].to_numpy(),
+        p["J"].to_numpy(),
+        p["Cw"].to_numpy(),
+        settings.E,
+        settings.G,
+    )
+    mr = resistance.m_r(mcr, m_base, settings.phi)
+    compressed = pairs["compressed"].to_numpy()
+    class4 = cls >= 4
+    checked = compressed & ~class4
+    demand = pairs["demand"].to_numpy()
+    with np.errstate(invalid="ignore", divide="ignore"):
+        utilization = np.where(checked, demand / mr, np.nan)
+    status = np.where(
+        ~compressed,
+        "not critical",
+        np.where(class4, "not checked", np.where(utilization > 1.0, "over", "ok")),
+    )
+    flags = {
+        "peak-inside": ends.peak_inside & compressed,
+        "omega2-cap": capped & compressed,
+        "cantilever": cantilever & compressed,
+        "class-4": class4 & compressed,
+        "sign-change": sign_change & compressed,
+        "few-stations": ends.few_stations & compressed,
+        "end-unbraced": end_unbraced & compressed,
+        "zero-ends": ends.zero_ends & compressed,
+        "assumed-brace": seg["assumed"].to_numpy()[k] & compressed,
+    }
+    out = pd.DataFrame(
+        {
+            "segment": seg.index.to_numpy()[k],
+            "member": member,
+            "flange": seg["flange"].to_numpy()[k],
+            "combination": np.asarray(diag.combinations, dtype=object)[
+                pairs["combination"].to_numpy()
+            ],
+            "section": section,
+            "length": length,
+            "section_class": cls,
+            "M_start": ends.m_start,
+            "M_end": ends.m_end,
+            "M_max": m_max,
+            "inside_peak": ends.inside_peak,
+            "inside_peak_at": ends.inside_peak_at,
+            "M_a": m_a,
+            "M_b": m_b,
+            "M_c": m_c,
+            "kappa": ends.kappa,
+            "omega2_formula": ends.omega2_formula,
+            "omega2_end": ends.omega2,
+            "omega2_qp": omega2_qp,
+            "cb": cb,
+            "method": settings.gradient,
+            "factor": factor,
+            "Mcr": mcr,
+            "M_base": m_base,
+            "Mr": mr,
+            "demand": demand,
+            "utilization": utilization,
+            "status": status,
+            "flags": join_words(flags, sep=" "),
+        }
+    )
+    for name, flag in flags.items():
+        out[f"flag_{name}"] = flag
+    return out

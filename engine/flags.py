@@ -1,0 +1,29 @@
+"""Named flags: the reasons a result needs a second look, and how they are written."""
+
+from __future__ import annotations
+
+import numpy as np
+
+#: Flag names (our own) and what each means, as the README and report explain them.
+FLAGS: dict[str, str] = {
+    "peak-inside": "a moment inside the segment exceeds the larger end moment: the end-moment "
+    "formula does not apply there, ω2 = 1.0",
+    "omega2-cap": "the design-basis factor reached its cap of 2.5",
+    "cantilever": "the segment reaches a free end: factor 1.0",
+    "class-4": "the section is class 4 in flexure: not checked by this tool",
+    "sign-change": "the moment changes sign inside the segment (double curvature)",
+    "few-stations": "fewer than 3 force stations inside the segment: the tool cannot see the "
+    "diagram between the ends, factor 1.0",
+    "end-unbraced": "the compression flange is not braced at one end: factor 1.0",
+    "zero-ends": "both end moments are zero: no end-moment ratio, ω2 = 1.0",
+    "assumed-brace": "an end of the segment is held only by an inferred (assumed) brace",
+}
+
+
+def join_words(flags: dict[str, np.ndarray], sep: str = "+") -> np.ndarray:
+    """Join, per row, the names of the flags that are true (vectorized over rows)."""
+    n = len(next(iter(flags.values()))) if flags else 0
+    out = np.full(n, "", dtype=object)
+    for word, flag in flags.items():
+        out = np.where(flag, np.where(out == "", word, out + sep + word), out)
+    return out
