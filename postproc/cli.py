@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import sys
 from collections.abc import Callable
 from functools import wraps
@@ -11,7 +12,10 @@ from typing import Any, TypeVar
 
 import click
 
+from engine.check import check_model
 from engine.layout import build_layout
+from postproc import exports
+from postproc.exports import CAUTION
 from postproc.files import write_atomic
 from postproc.members_view import members_text, segment_rows
 from postproc.summary import model_summary
@@ -19,13 +23,9 @@ from readers import InputError, load_model
 
 F = TypeVar("F", bound=Callable[..., Any])
 
-CAUTION = (
-    "CAUTION: results are an aid to design, not a design. They must be verified by a competent "
-    "engineer; the local design code and licensed practice govern."
-)
-
-#: The sample model the ``demo`` command runs on.
+#: The sample model the ``demo`` command runs on, and where it writes.
 DEMO_SAMPLE = "two_span_beam"
+DEMO_OUT = "flangewise-demo"
 
 
 def _input_errors_exit_2(func: F) -> F:
@@ -102,11 +102,118 @@ def members(model: Path, settings_file: Path | None, csv_file: Path | None) -> N
     click.echo(CAUTION)
 
 
+def _run_check(
+    model: Path,
+    settings_file: Path | None,
+    out: Path,
+    members_wanted: tuple[str, ...],
+    combinations: tuple[str, ...],
+    method: str | None,
+) -> int:
+    """Load, check, write and summarise; return the number of pairs over 1.0."""
+    show = sys.stdout.isatty()
+    stages = ["reading", "checking", "writing"]
+    with click.progressbar(stages, label="flangewise", file=None if show else _Null()) as bar:
+        it = iter(bar)
+        next(it)
+        loaded = load_model(model, settings_file, combinations=combinations or None)
+        settings = loaded.settings.check
+        if method:
+            settings = dataclasses.replace(settings, gradient=method)
+        next(it, None)
+        result = check_model(loaded, settings)
+        seg = exports.segment_table(result)
+        if members_wanted:
+            unknown = sorted(set(members_wanted) - set(seg["member"]))
+            if unknown:
+                raise click.BadParameter(
+                    f"no member named {', '.join(unknown)} (see 'flangewise members')",
+                    param_hint="--member",
+                )
+            seg = seg[seg["member"].isin(members_wanted)].reset_index(drop=True)
+        next(it, None)
+        info = exports.summary(result, seg, model)
+        exports.write_results(
+            out,
+            {
+                "segments.csv": seg,
+                "governing.csv": exports.governing_table(seg),
+                "flagged.csv": exports.flagged_table(seg),
+            },
+            info,
+        )
+    click.echo(exports.summary_text(info))
+    click.echo(f"Results        : {out}/ (segments.csv, governing.csv, flagged.csv, summary.json)")
+    click.echo(CAUTION)
+    return int(info["pairs over 1.0"])
+
+
+class _Null:
+    """A file that swallows the progress bar when output is not a terminal."""
+
+    def write(self, text: str) -> int:
+        return len(text)
+
+    def flush(self) -> None:
+        """Nothing to flush."""
+
+    def isatty(self) -> bool:
+        return False
+
+
+@main.command()
+@click.argument("model", type=click.Path(file_okay=False, path_type=Path))
+@click.option(
+    "--settings",
+    "settings_file",
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="Settings file (TOML) to use instead of the model folder's flangewise.toml.",
+)
+@click.option(
+    "--out",
+    type=click.Path(file_okay=False, path_type=Path),
+    default=Path("flangewise-results"),
+    show_default=True,
+    help="Folder for the result files (earlier results there are replaced only on success).",
+)
+@click.option("--member", "members_wanted", multiple=True, help="Check only this member (repeat).")
+@click.option(
+    "--combination", "combinations", multiple=True, help="Only this load combination (repeat)."
+)
+@click.option(
+    "--method",
+    type=click.Choice(["end_moment", "quarter_point", "cb"]),
+    help="Design-basis gradient method (default: the settings file's, else end_moment).",
+)
+@click.option(
+    "--exit-zero",
+    is_flag=True,
+    help="Exit with status 0 even when a segment is over 1.0.",
+)
+@_input_errors_exit_2
+def check(
+    model: Path,
+    settings_file: Path | None,
+    out: Path,
+    members_wanted: tuple[str, ...],
+    combinations: tuple[str, ...],
+    method: str | None,
+    exit_zero: bool,
+) -> None:
+    """Check every unbraced segment of MODEL in every load combination.
+
+    Exit status: 0 when every checked segment passes, 1 when any is over 1.0 (unless
+    --exit-zero), 2 for input that cannot be used.
+    """
+    over = _run_check(model, settings_file, out, members_wanted, combinations, method)
+    if over and not exit_zero:
+        sys.exit(1)
+
+
 @main.command()
 @_input_errors_exit_2
 def demo() -> None:
-    """Load the bundled sample model and summarise it (no arguments needed)."""
+    """Check the bundled sample model into ./flangewise-demo (no arguments needed)."""
     folder = sample_path(DEMO_SAMPLE)
-    click.echo(f"Sample model: {DEMO_SAMPLE} ({folder})")
-    click.echo(model_summary(load_model(folder)))
-    click.echo(CAUTION)
+    click.echo(f"Sample model: {DEMO_SAMPLE}")
+    _run_check(folder, None, Path(DEMO_OUT), (), (), None)

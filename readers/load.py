@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import re
 from pathlib import Path
 
@@ -28,12 +29,17 @@ RESTRAINT_WORDS = frozenset({"ux", "uy", "uz", "rx", "ry", "rz", "all"})
 MAX_LISTED = 60
 
 
-def load_model(folder: Path | str, settings_file: Path | str | None = None) -> Model:
+def load_model(
+    folder: Path | str,
+    settings_file: Path | str | None = None,
+    combinations: tuple[str, ...] | None = None,
+) -> Model:
     """Read and validate the model in ``folder``; return it in internal units.
 
     Args:
         folder: the folder holding the CSV files (and ``flangewise.toml`` if any).
         settings_file: a settings file to use instead of the folder's own.
+        combinations: load combinations to include, overriding the settings file's list.
 
     Raises:
         InputError: listing every problem found (file, spreadsheet row, column, value, expected).
@@ -43,6 +49,8 @@ def load_model(folder: Path | str, settings_file: Path | str | None = None) -> M
             [Problem(str(folder), None, None, None, "a folder holding the model's CSV files")]
         )
     settings = read_settings(folder, settings_file)
+    if combinations is not None:
+        settings = dataclasses.replace(settings, combinations=tuple(combinations))
     problems = ProblemList()
     raw = {t: read_table(settings, t, problems) for t in TABLES}
     problems.raise_if_any()

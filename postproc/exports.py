@@ -1,0 +1,223 @@
+"""Result tables for people: engineer's units in the column names, governing rows, a summary."""
+
+from __future__ import annotations
+
+import json
+import os
+import shutil
+import tempfile
+from collections.abc import Callable
+from importlib.metadata import version
+from pathlib import Path
+from typing import IO, Any
+
+import numpy as np
+import pandas as pd
+
+from engine.check import CheckResult
+from engine.flags import FLAGS
+
+CAUTION = (
+    "CAUTION: results are an aid to design, not a design. They must be verified by a competent "
+    "engineer; the local design code and licensed practice govern."
+)
+
+KNM = 1.0e6  # N·mm per kN·m
+M = 1.0e3  # mm per m
+
+#: Result files written by a check, in the order they are written.
+RESULT_FILES = ("segments.csv", "governing.csv", "flagged.csv", "summary.json")
+
+METHOD_WORDS = {
+    "end_moment": "end-moment ω2 (SANS 10162-1 cl. 13.6(a))",
+    "quarter_point": "quarter-point ω2 (CSA S16-14 cl. 13.6(a)(ii))",
+    "cb": "Cb (AISC 360-16 Eq. F1-1)",
+}
+
+
+def segment_table(result: CheckResult) -> pd.DataFrame:
+    """Every (segment, combination) pair with all the numbers, in engineer's units."""
+    r = result.results
+    seg = result.layout.segments.table.reindex(r["segment"])
+    return pd.DataFrame(
+        {
+            "member": r["member"].to_numpy(),
+            "segment": r["segment"].to_numpy(),
+            "flange": r["flange"].to_numpy(),
+            "combination": r["combination"].to_numpy(),
+            "section": r["section"].to_numpy(),
+            "class": r["section_class"].to_numpy(),
+            "from node": seg["node_start"].to_numpy(),
+            "to node": seg["node_end"].to_numpy(),
+            "start [m]": seg["s_start"].to_numpy() / M,
+            "end [m]": seg["s_end"].to_numpy() / M,
+            "Lu [m]": r["length"].to_numpy() / M,
+            "M start [kN·m]": r["M_start"].to_numpy() / KNM + 0.0,
+            "M end [kN·m]": r["M_end"].to_numpy() / KNM + 0.0,
+            "|M| max [kN·m]": r["M_max"].to_numpy() / KNM,
+            "|M| inside peak [kN·m]": r["inside_peak"].to_numpy() / KNM,
+            "inside peak at [m]": r["inside_peak_at"].to_numpy() / M,
+            "|M| L/4 [kN·m]": r["M_a"].to_numpy() / KNM,
+            "|M| L/2 [kN·m]": r["M_b"].to_numpy() / KNM,
+            "|M| 3L/4 [kN·m]": r["M_c"].to_numpy() / KNM,
+            "κ": r["kappa"].to_numpy(),
+            "ω2 end-moment": r["omega2_end"].to_numpy(),
+            "ω2 quarter-point": r["omega2_qp"].to_numpy(),
+            "Cb": r["cb"].to_numpy(),
+            "basis": r["method"].to_numpy(),
+            "factor used": r["factor"].to_numpy(),
+            "Mcr [kN·m]": r["Mcr"].to_numpy() / KNM,
+            "Mp or My [kN·m]": r["M_base"].to_numpy() / KNM,
+            "Mr [kN·m]": r["Mr"].to_numpy() / KNM,
+            "demand [kN·m]": r["demand"].to_numpy() / KNM,
+            "utilization": r["utilization"].to_numpy(),
+            "status": r["status"].to_numpy(),
+            "flags": r["flags"].to_numpy(),
+        }
+    )
+
+
+def governing_table(segments: pd.DataFrame) -> pd.DataFrame:
+    """The governing row of each member: its checked pair of highest utilization.
+
+    A member with no checked pair keeps one row saying why (not critical, or not checked).
+    """
+    order = segments.assign(
+        _rank=segments["status"].map({"over": 0, "ok": 0, "not checked": 1, "not critical": 2}),
+        _u=segments["utilization"].fillna(-1.0),
+    ).sort_values(["member", "_rank", "_u"], ascending=[True, True, False], kind="stable")
+    first = order.drop_duplicates("member", keep="first")
+    return first.drop(columns=["_rank", "_u"]).reset_index(drop=True)
+
+
+def flagged_table(segments: pd.DataFrame) -> pd.DataFrame:
+    """Every pair that carries at least one flag."""
+    return segments[segments["flags"] != ""].reset_index(drop=True)
+
+
+def summary(result: CheckResult, segments: pd.DataFrame, model_folder: Path) -> dict[str, Any]:
+    """Counts, the worst result and the flags, as a JSON-ready dict."""
+    checked = segments[segments["status"].isin(["ok", "over"])]
+    worst: dict[str, Any] | None = None
+    if len(checked):
+        w = checked.loc[checked["utilization"].idxmax()]
+        worst = {
+            "member": str(w["member"]),
+            "segment": str(w["segment"]),
+            "combination": str(w["combination"]),
+            "utilization": round(float(w["utilization"]), 4),
+            "Mr [kN·m]": round(float(w["Mr [kN·m]"]), 3),
+            "demand [kN·m]": round(float(w["demand [kN·m]"]), 3),
+        }
+    flag_counts = {name: int(result.results[f"flag_{name}"].sum()) for name in FLAGS}
+    return {
+        "tool": f"flangewise {version('flangewise')}",
+        "model": str(model_folder),
+        "design basis": METHOD_WORDS[result.settings.gradient],
+        "E [MPa]": result.settings.E,
+        "G [MPa]": result.settings.G,
+        "phi": result.settings.phi,
+        "members": int(segments["member"].nunique()),
+        "segments": int(segments["segment"].nunique()),
+        "load combinations": int(segments["combination"].nunique()),
+        "pairs checked": len(checked),
+        "pairs not critical": int((segments["status"] == "not critical").sum()),
+        "pairs not checked (class 4)": int((segments["status"] == "not checked").sum()),
+        "pairs over 1.0": int((segments["status"] == "over").sum()),
+        "worst": worst,
+        "flags": flag_counts,
+        "flag meanings": FLAGS,
+        "caution": CAUTION,
+    }
+
+
+def summary_text(info: dict[str, Any]) -> str:
+    """A short summary for the terminal."""
+    lines = [
+        f"Model          : {info['model']}",
+        f"Design basis   : {info['design basis']}",
+        f"Checked        : {info['members']} members, {info['segments']} segments, "
+        f"{info['load combinations']} load combinations "
+        f"({info['pairs checked']} segment-combination pairs with the flange in compression, "
+        f"{info['pairs not critical']} not critical)",
+    ]
+    w = info["worst"]
+    if w:
+        lines.append(
+            f"Worst          : utilization {w['utilization']:.3f} in member {w['member']}, "
+            f"segment {w['segment']}, {w['combination']} "
+            f"(demand {w['demand [kN·m]']:.1f} kN·m, Mr {w['Mr [kN·m]']:.1f} kN·m)"
+        )
+    lines.append(f"Over 1.0       : {info['pairs over 1.0']}")
+    if info["pairs not checked (class 4)"]:
+        lines.append(f"NOT CHECKED    : {info['pairs not checked (class 4)']} (class 4 sections)")
+    flagged = {k: v for k, v in info["flags"].items() if v}
+    lines.append(
+        "Flags          : "
+        + (", ".join(f"{k} {v}" for k, v in flagged.items()) if flagged else "none")
+    )
+    return "\n".join(lines)
+
+
+def write_results(
+    out: Path,
+    tables: dict[str, pd.DataFrame],
+    info: dict[str, Any],
+    before_replace: Callable[[str], None] | None = None,
+) -> list[Path]:
+    """Write every result file into ``out`` so that a failure leaves the old results intact.
+
+    All files are first written completely into a staging folder inside ``out``; only then is
+    each moved over its old version with an atomic rename, the old one parked in the staging
+    folder. A failure at any point puts the parked files back: ``out`` holds either the complete
+    earlier set or the complete new one, and nothing half-written is ever visible there.
+
+    Args:
+        out: the results folder (created if needed).
+        tables: file name -> table, for the CSV files.
+        info: the summary, written as JSON.
+        before_replace: called with each file name just before it replaces the old one (a hook
+            for tests that inject a failure).
+    """
+    out.mkdir(parents=True, exist_ok=True)
+    stage = Path(tempfile.mkdtemp(prefix=".flangewise-", dir=out))
+    moved: list[str] = []  # old files parked in the staging folder, to put back on failure
+    names = [*tables, "summary.json"]
+    try:
+        for name, table in tables.items():
+            _write(stage / name, lambda fh, t=table: t.to_csv(fh, index=False, float_format="%.6g"))
+        _write(
+            stage / "summary.json",
+            lambda fh: json.dump(info, fh, indent=2, ensure_ascii=False, default=_json_default),
+        )
+        try:
+            for name in names:
+                if before_replace is not None:
+                    before_replace(name)
+                if (out / name).exists():
+                    os.replace(out / name, stage / f"old-{name}")
+                    moved.append(name)
+                os.replace(stage / name, out / name)
+        except BaseException:
+            for name in moved:  # put the earlier results back, as a set
+                os.replace(stage / f"old-{name}", out / name)
+            for name in names:
+                if name not in moved and not (stage / name).exists():
+                    (out / name).unlink(missing_ok=True)
+            raise
+        return [out / name for name in names]
+    finally:
+        shutil.rmtree(stage, ignore_errors=True)
+
+
+def _write(path: Path, write: Callable[[IO[str]], None]) -> None:
+    with path.open("w", encoding="utf-8", newline="") as fh:
+        write(fh)
+
+
+def _json_default(value: object) -> object:
+    if isinstance(value, np.integer):
+        return int(value)
+    if isinstance(value, np.floating):
+        return float(value)
+    raise TypeError(type(value))
