@@ -13,11 +13,15 @@ import numpy as np
 import pandas as pd
 
 from engine import gradient, resistance
-from engine.flags import join_words
+from engine.flags import flag_labels
 from engine.layout import Layout, build_layout
 from engine.sections import section_class, section_properties
+from engine.segments import FLANGES
 from readers.model import Model
 from readers.settings import CheckSettings
+
+#: Result states, in code order.
+STATUS = ["ok", "over", "not critical", "not checked"]
 
 #: Column holding each method's factor in the results.
 METHOD_COLUMN = {"end_moment": "omega2_end", "quarter_point": "omega2_qp", "cb": "cb"}
@@ -66,8 +70,9 @@ def check_model(model: Model, settings: CheckSettings | None = None) -> CheckRes
 def check_pairs(layout: Layout, props: pd.DataFrame, settings: CheckSettings) -> pd.DataFrame:
     """Return one row per (segment, combination) pair with every number of the check.
 
-    Columns: ``segment``, ``member``, ``flange``, ``combination``, ``section``, ``length`` [mm],
-    ``section_class``, ``M_start``, ``M_end`` [N·mm, positive compresses the segment's flange],
+    Columns: ``segment_row`` (row of ``Segments.table``), ``segment``, ``member``, ``flange``,
+    ``combination``, ``section``, ``length`` [mm], ``section_class``, ``M_start``, ``M_end``
+    [N·mm, positive compresses the segment's flange],
     ``M_max``, ``inside_peak``, ``inside_peak_at`` [mm], ``M_a``, ``M_b``, ``M_c``, ``kappa``,
     ``omega2_formula``, ``omega2_end``, ``omega2_qp``, ``cb``, ``method``, ``factor``,
     ``Mcr``, ``M_base`` (Mp for class 1-2, My for class 3), ``Mr``, ``demand``, ``utilization``,
@@ -96,8 +101,12 @@ def check_pairs(layout: Layout, props: pd.DataFrame, settings: CheckSettings) ->
     factor = np.where(fallback, 1.0, by_method[settings.gradient])
     capped = ~fallback & (factor >= gradient.OMEGA2_CAP) & (settings.gradient != "cb")
 
-    member = seg["member"].to_numpy()[k]
-    section = layout.members.table["section"].reindex(member).to_numpy()
+    # Text columns as categoricals: codes per pair, each distinct text made once.
+    seg_codes = seg["member"].astype("category")
+    member = pd.Categorical.from_codes(
+        seg_codes.cat.codes.to_numpy()[k], categories=seg_codes.cat.categories
+    )
+    section = layout.members.table["section"].reindex(member.categories).to_numpy()[member.codes]
     p = props.reindex(section)
     cls = p["section_class"].to_numpy()
     m_base = np.where(cls <= 2, p["Zx"].to_numpy(), p["Sx"].to_numpy()) * p["fy"].to_numpy()
@@ -117,11 +126,10 @@ def check_pairs(layout: Layout, props: pd.DataFrame, settings: CheckSettings) ->
     demand = pairs["demand"].to_numpy()
     with np.errstate(invalid="ignore", divide="ignore"):
         utilization = np.where(checked, demand / mr, np.nan)
-    status = np.where(
-        ~compressed,
-        "not critical",
-        np.where(class4, "not checked", np.where(utilization > 1.0, "over", "ok")),
-    )
+    status_code = np.where(
+        ~compressed, 2, np.where(class4, 3, np.where(utilization > 1.0, 1, 0))
+    ).astype(np.int8)
+    status = pd.Categorical.from_codes(status_code, categories=pd.Index(STATUS))
     flags = {
         "peak-inside": ends.peak_inside & compressed,
         "omega2-cap": capped & compressed,
@@ -135,13 +143,15 @@ def check_pairs(layout: Layout, props: pd.DataFrame, settings: CheckSettings) ->
     }
     out = pd.DataFrame(
         {
-            "segment": seg.index.to_numpy()[k],
+            "segment_row": k,
+            "segment": pd.Categorical.from_codes(k, categories=seg.index),
             "member": member,
-            "flange": seg["flange"].to_numpy()[k],
-            "combination": np.asarray(diag.combinations, dtype=object)[
-                pairs["combination"].to_numpy()
-            ],
-            "section": section,
+            "flange": pd.Categorical(seg["flange"].to_numpy()[k], categories=list(FLANGES)),
+            "combination": pd.Categorical.from_codes(
+                pairs["combination"].to_numpy().astype(np.int32),
+                categories=pd.Index(diag.combinations),
+            ),
+            "section": pd.Categorical(section),
             "length": length,
             "section_class": cls,
             "M_start": ends.m_start,
@@ -165,7 +175,7 @@ def check_pairs(layout: Layout, props: pd.DataFrame, settings: CheckSettings) ->
             "demand": demand,
             "utilization": utilization,
             "status": status,
-            "flags": join_words(flags, sep=" "),
+            "flags": flag_labels(flags),
         }
     )
     for name, flag in flags.items():

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import numpy as np
+import pandas as pd
 
 #: Flag names (our own) and what each means, as the README and report explain them.
 FLAGS: dict[str, str] = {
@@ -27,3 +28,21 @@ def join_words(flags: dict[str, np.ndarray], sep: str = "+") -> np.ndarray:
     for word, flag in flags.items():
         out = np.where(flag, np.where(out == "", word, out + sep + word), out)
     return out
+
+
+def flag_labels(flags: dict[str, np.ndarray], sep: str = " ") -> pd.Categorical[str]:
+    """Return, per row, the names of its true flags joined by ``sep``, as a categorical.
+
+    Rows are encoded as bit masks first, so only each distinct combination of flags is turned into
+    text: no string is built per row.
+    """
+    names = list(flags)
+    n = len(flags[names[0]]) if names else 0
+    mask = np.zeros(n, dtype=np.int64)
+    for bit, name in enumerate(names):
+        mask |= flags[name].astype(np.int64) << bit
+    uniques, codes = np.unique(mask, return_inverse=True)
+    labels = [
+        sep.join(name for bit, name in enumerate(names) if (int(u) >> bit) & 1) for u in uniques
+    ]
+    return pd.Categorical.from_codes(codes.astype(np.int32), categories=pd.Index(labels))
