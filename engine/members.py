@@ -16,9 +16,10 @@ from dataclasses import dataclass
 import networkx as nx
 import numpy as np
 import pandas as pd
+from scipy.spatial import cKDTree
 
 from readers.errors import InputError, Problem
-from readers.model import Model, drawn_backwards
+from readers.model import COINCIDENT_MM, Model, drawn_backwards
 from readers.settings import MemberSettings
 
 #: Members steeper than this from horizontal [degrees] have no top or bottom flange (common
@@ -80,6 +81,7 @@ def build_members(model: Model, settings: MemberSettings) -> Members:
     vec = xyz[ei] - xyz[si]
     unit = vec / el["length"].to_numpy()[:, None]
 
+    _collinear_overlaps(model, settings, si, ei, unit)
     pairs = _continuations(model, settings, si, ei, unit)
     chain_graph = nx.Graph()
     chain_graph.add_nodes_from(range(n))
@@ -203,6 +205,60 @@ def _continuations(
     pairs = np.column_stack([end_elem[a], end_elem[b]])
     _check_user_ids(model, pairs)
     return pairs
+
+
+def _collinear_overlaps(
+    model: Model,
+    settings: MemberSettings,
+    si: np.ndarray,
+    ei: np.ndarray,
+    unit: np.ndarray,
+) -> None:
+    """Raise when a node lies inside an element and an element there runs along it (overlap).
+
+    Overlaps through a shared node are found in :func:`_continuations`; this finds the ones that
+    share no node (two elements partly on top of each other). A node lying on an element that
+    nothing runs along from is left alone: it only means the element is not split there, and a
+    brace at such a node is then not seen, which lengthens the segment (conservative).
+    """
+    el = model.elements
+    n = len(el)
+    if n == 0:
+        return
+    xyz = model.nodes[["x", "y", "z"]].to_numpy()
+    length = el["length"].to_numpy()
+    tree = cKDTree(xyz)
+    near = tree.query_ball_point((xyz[si] + xyz[ei]) / 2.0, r=length / 2.0, return_sorted=False)
+    counts = np.fromiter((len(c) for c in near), dtype=np.int64, count=n)
+    if counts.sum() == 0:
+        return
+    elem = np.repeat(np.arange(n), counts)
+    node = np.concatenate([np.asarray(c, dtype=np.int64) for c in near if len(c)])
+    rel = xyz[node] - xyz[si[elem]]
+    t = (rel * unit[elem]).sum(axis=1)
+    perp = np.linalg.norm(rel - t[:, None] * unit[elem], axis=1)
+    inside = (perp < COINCIDENT_MM) & (t > COINCIDENT_MM) & (t < length[elem] - COINCIDENT_MM)
+    if not inside.any():
+        return
+    elem, node = elem[inside], node[inside]
+    ends = pd.DataFrame({"node": np.concatenate([si, ei]), "other": np.tile(np.arange(n), 2)})
+    cand = pd.DataFrame({"node": node, "elem": elem}).merge(ends, on="node")
+    a, b = cand["elem"].to_numpy(), cand["other"].to_numpy()
+    tol = np.cos(np.radians(settings.angle_tolerance))
+    along = np.abs((unit[a] * unit[b]).sum(axis=1)) >= tol
+    if along.any():
+        raise InputError(
+            [
+                _element_problem(
+                    model,
+                    int(y),
+                    f"no overlap with element '{el.index[x]}': it runs along that element from "
+                    f"node '{model.nodes.index[p]}', which lies inside it (split the elements at "
+                    "common nodes or remove one)",
+                )
+                for x, y, p in zip(a[along], b[along], cand["node"].to_numpy()[along], strict=True)
+            ]
+        )
 
 
 def _check_user_ids(model: Model, pairs: np.ndarray) -> None:

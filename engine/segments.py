@@ -102,9 +102,21 @@ def brace_stations(model: Model, members: Members, settings: MemberSettings) -> 
         )
         st[f"{flange}_assumed"] = assumed & ~firm
     st["free"] = is_end & (st["others"].to_numpy() == 0) & ~supported
-    ignored = steep & one_flange
-    st.attrs["ignored"] = pd.DataFrame(
-        {"member": st["member"].to_numpy()[ignored], "node": st["node"].to_numpy()[ignored]}
+    # One-flange braces on steep members hold nothing; list each (member, node, flange) where the
+    # node is not already held on both flanges by something else (a connected end, a support).
+    lost = steep & one_flange & ~(supported | connected_end | said["both"])
+    st.attrs["ignored"] = pd.concat(
+        [
+            pd.DataFrame(
+                {
+                    "member": st["member"].to_numpy()[lost & said[word]],
+                    "node": st["node"].to_numpy()[lost & said[word]],
+                    "flange": word,
+                }
+            )
+            for word in ("top", "bottom")
+        ],
+        ignore_index=True,
     )
     return st
 
@@ -175,7 +187,6 @@ def build_segments(model: Model, members: Members, settings: MemberSettings) -> 
         table=table,
         element_segments=element_segments,
         ignored=st.attrs["ignored"].assign(
-            flange="top or bottom",
             reason="a one-flange brace cannot hold a member steeper than 45° (no top or bottom)",
         ),
     )
