@@ -179,8 +179,9 @@ def end_moment_omega2(runs: Runs) -> EndMomentResult:
 def moment_at(runs: Runs, fraction: float) -> np.ndarray:
     """Return |M| at ``fraction`` of each run's length, interpolated linearly between stations.
 
-    Where the diagram jumps exactly there (two stations at one x), the larger of the two sides is
-    taken: it makes every quarter-point factor smaller, i.e. conservative.
+    Where the diagram jumps there (two stations at one x, within ``END_TOLERANCE_MM`` of the
+    point, since positions carry float rounding), the larger of the two sides is taken: it makes
+    every quarter-point factor smaller, i.e. conservative.
     """
     n = len(runs.length)
     if n == 0:
@@ -188,7 +189,8 @@ def moment_at(runs: Runs, fraction: float) -> np.ndarray:
     span = float(runs.length.max()) * 2.0 + 1.0
     run = runs.run_of_station
     key = run * span + runs.x
-    target = np.arange(n) * span + runs.length * fraction
+    at = runs.length * fraction
+    target = np.arange(n) * span + at
     lo_idx, hi_idx = runs.starts, runs.offsets[1:] - 1
 
     def side(i_left: np.ndarray) -> np.ndarray:
@@ -197,12 +199,12 @@ def moment_at(runs: Runs, fraction: float) -> np.ndarray:
         x0, x1 = runs.x[i0], runs.x[i1]
         dx = x1 - x0
         with np.errstate(invalid="ignore", divide="ignore"):
-            w = np.where(dx > 0.0, (runs.length * fraction - x0) / dx, 0.0)
+            w = np.where(dx > 0.0, (at - x0) / dx, 0.0)
         w = np.clip(w, 0.0, 1.0)
         return np.abs(runs.m[i0] + w * (runs.m[i1] - runs.m[i0]))
 
-    after = side(np.searchsorted(key, target, side="right") - 1)
-    before = side(np.searchsorted(key, target, side="left") - 1)
+    after = side(np.searchsorted(key, target + END_TOLERANCE_MM, side="right") - 1)
+    before = side(np.searchsorted(key, target - END_TOLERANCE_MM, side="left") - 1)
     return np.maximum(after, before)
 
 

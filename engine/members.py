@@ -42,14 +42,15 @@ class Members:
         stations: one row per node along a member, in order: ``member``, ``node``, ``s``,
             ``end`` ("start", "end" or ""), ``others`` (how many elements of other members meet
             there), ``supported`` (the node is in the supports table).
-        graph: the frame as a networkx multigraph: nodes are node ids, edges are elements (key =
-            element id).
+        chains: the networkx graph whose nodes are element row numbers (positions in
+            ``model.elements``) and whose edges join two elements that continue one member
+            through a node; each connected component is one member.
     """
 
     table: pd.DataFrame
     elements: pd.DataFrame
     stations: pd.DataFrame
-    graph: nx.MultiGraph
+    chains: nx.Graph
 
 
 def frame_graph(model: Model) -> nx.MultiGraph:
@@ -72,7 +73,6 @@ def build_members(model: Model, settings: MemberSettings) -> Members:
         InputError: two elements overlap, or elements given one user member id do not form one
             straight chain (named by file, row and column).
     """
-    graph = frame_graph(model)
     el = model.elements
     n = len(el)
     xyz = model.nodes[["x", "y", "z"]].to_numpy()
@@ -134,8 +134,8 @@ def build_members(model: Model, settings: MemberSettings) -> Members:
     members = members.sort_values("rank").drop(columns="rank")
     members.insert(2, "n_elements", counts)
 
-    stations = _stations(model, graph, elements, si, ei, order)
-    return Members(table=members, elements=elements, stations=stations, graph=graph)
+    stations = _stations(model, elements, si, ei, order)
+    return Members(table=members, elements=elements, stations=stations, chains=chain_graph)
 
 
 def _continuations(
@@ -348,7 +348,6 @@ def _member_table(
 
 def _stations(
     model: Model,
-    graph: nx.MultiGraph,
     elements: pd.DataFrame,
     si: np.ndarray,
     ei: np.ndarray,
@@ -366,17 +365,22 @@ def _stations(
             "member": np.concatenate([member[is_first], member]),
             "node": np.concatenate([node_ids[first_node[is_first]], node_ids[last_node]]),
             "s": np.concatenate([elements["s0"].to_numpy()[is_first], elements["s1"].to_numpy()]),
-            "seq": np.concatenate([np.flatnonzero(is_first) * 2, np.arange(len(member)) * 2 + 1]),
         }
-    ).sort_values("seq", kind="stable")
-    st = st.drop(columns="seq").reset_index(drop=True)
+    )
+    seq = np.concatenate([np.flatnonzero(is_first) * 2, np.arange(len(member)) * 2 + 1])
+    st_order = np.argsort(seq, kind="stable")
+    st = st.iloc[st_order].reset_index(drop=True)
     mem = st["member"].to_numpy()
     starts = np.r_[True, mem[1:] != mem[:-1]]
     ends = np.r_[mem[1:] != mem[:-1], True]
     st["end"] = np.where(starts, "start", np.where(ends, "end", ""))
-    degree = dict(graph.degree())
-    deg = st["node"].map(degree).to_numpy()
+    # Elements meeting at each node (the node's degree in the frame graph).
+    deg_of_node = np.bincount(np.concatenate([si, ei]), minlength=len(node_ids))
+    deg = deg_of_node[np.concatenate([first_node[is_first], last_node])][st_order]
     own = np.where(st["end"].to_numpy() == "", 2, 1)  # this member's own elements at the node
     st["others"] = deg - own
-    st["supported"] = st["node"].isin(set(model.supports["node"])).to_numpy()
+    supported = np.zeros(len(node_ids), dtype=bool)
+    hit = model.nodes.index.get_indexer(pd.Index(model.supports["node"].to_numpy(dtype=object)))
+    supported[hit[hit >= 0]] = True
+    st["supported"] = supported[np.concatenate([first_node[is_first], last_node])][st_order]
     return st
