@@ -39,6 +39,10 @@ def _input_errors_exit_2(func: F) -> F:
             click.echo("The input cannot be used:", err=True)
             click.echo(exc.report(), err=True)
             sys.exit(2)
+        except OSError as exc:
+            click.echo(f"Could not write the results: {exc}", err=True)
+            click.echo("Earlier results in the output folder are unchanged.", err=True)
+            sys.exit(3)
 
     return wrapper  # type: ignore[return-value]
 
@@ -203,7 +207,8 @@ def check(
     """Check every unbraced segment of MODEL in every load combination.
 
     Exit status: 0 when every checked segment passes, 1 when any is over 1.0 (unless
-    --exit-zero), 2 for input that cannot be used.
+    --exit-zero), 2 for input that cannot be used, 3 when the results could not be written
+    (earlier results are then left as they were).
     """
     over = _run_check(model, settings_file, out, members_wanted, combinations, method)
     if over and not exit_zero:
