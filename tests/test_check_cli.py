@@ -11,8 +11,7 @@ import pytest
 from click.testing import CliRunner
 
 from postproc import exports
-from postproc.cli import main
-from postproc.cli import sample_path
+from postproc.cli import main, sample_path
 
 SAMPLE = sample_path("two_span_beam")
 
