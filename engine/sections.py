@@ -23,6 +23,11 @@ PROPERTY_COLUMNS: tuple[str, ...] = (
     *("A", "Ix", "Iy", "Sx", "Zx", "rx", "ry", "J", "Cw", "given"),
 )
 
+#: Flange outstand limits b/(2·tf) · √fy for class 1, 2, 3 (SANS 10162-1:2011, Table 3).
+FLANGE_LIMITS: tuple[float, float, float] = (145.0, 170.0, 200.0)
+#: Web limits h/tw · √fy for class 1, 2, 3 with no axial force (SANS 10162-1:2011, Table 3).
+WEB_LIMITS: tuple[float, float, float] = (1100.0, 1700.0, 1900.0)
+
 #: Area of one root fillet per r² (a square of side r less a quarter circle of radius r).
 _FILLET_AREA = 1.0 - np.pi / 4.0
 #: Distance of a fillet's centroid from each of its two straight edges, per r.
@@ -225,12 +230,13 @@ def section_class(
         raise ValueError(f"Cf/φCy must be within 0 to 1, got {bad:g}")
     root = np.sqrt(fy_a)
     tf_a = np.asarray(tf, dtype=float)
-    flange = _classify(np.asarray(b, dtype=float) / (2.0 * tf_a), 145.0, 170.0, 200.0, root)
+    flange = _classify(np.asarray(b, dtype=float) / (2.0 * tf_a), *FLANGE_LIMITS, root)
+    w1, w2, w3 = WEB_LIMITS
     web = _classify(
         (np.asarray(d, dtype=float) - 2.0 * tf_a) / np.asarray(tw, dtype=float),
-        1100.0 * (1.0 - 0.39 * rho),
-        1700.0 * (1.0 - 0.61 * rho),
-        1900.0 * (1.0 - 0.65 * rho),
+        w1 * (1.0 - 0.39 * rho),
+        w2 * (1.0 - 0.61 * rho),
+        w3 * (1.0 - 0.65 * rho),
         root,
     )
     return SectionClass(flange, web, np.maximum(flange, web))

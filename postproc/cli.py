@@ -15,6 +15,7 @@ import click
 from engine.check import check_model
 from engine.layout import build_layout
 from postproc import exports
+from postproc.derivation import derivation_text, find_pair
 from postproc.exports import CAUTION
 from postproc.files import write_atomic
 from postproc.members_view import members_text, segment_rows
@@ -213,6 +214,42 @@ def check(
     over = _run_check(model, settings_file, out, members_wanted, combinations, method)
     if over and not exit_zero:
         sys.exit(1)
+
+
+@main.command()
+@click.argument("model", type=click.Path(file_okay=False, path_type=Path))
+@click.argument("segment")
+@click.argument("combination")
+@click.option(
+    "--settings",
+    "settings_file",
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="Settings file (TOML) to use instead of the model folder's flangewise.toml.",
+)
+@click.option(
+    "--method",
+    type=click.Choice(["end_moment", "quarter_point", "cb"]),
+    help="Design-basis gradient method (default: the settings file's, else end_moment).",
+)
+@_input_errors_exit_2
+def explain(
+    model: Path, segment: str, combination: str, settings_file: Path | None, method: str | None
+) -> None:
+    """Show the check of one SEGMENT in one load COMBINATION of MODEL, step by step.
+
+    SEGMENT is a name as 'flangewise members' or the results show it (such as M3-top-2).
+    """
+    loaded = load_model(model, settings_file)
+    settings = loaded.settings.check
+    if method:
+        settings = dataclasses.replace(settings, gradient=method)
+    result = check_model(loaded, settings)
+    try:
+        row = find_pair(result, segment, combination)
+    except KeyError as exc:
+        raise click.BadParameter(str(exc.args[0])) from None
+    click.echo(derivation_text(result, row))
+    click.echo(CAUTION)
 
 
 @main.command()

@@ -1,0 +1,274 @@
+"""The check of one segment in one load combination, step by step, with the clause beside each step.
+
+Used by the ``explain`` command (plain text) and the review report (HTML). Every number shown is
+read from the check's results or the section table: nothing is recomputed differently here, so the
+derivation always matches the exported CSV.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import pandas as pd
+
+from engine.check import CheckResult
+from engine.flags import FLAGS
+from engine.gradient import INSIDE_TOLERANCE, MIN_INSIDE_STATIONS
+from engine.resistance import INELASTIC_SWITCH
+from engine.sections import FLANGE_LIMITS, WEB_LIMITS
+
+KNM = 1.0e6
+M = 1.0e3
+
+METHOD_NAMES = {
+    "end_moment": "end-moment ω2",
+    "quarter_point": "quarter-point ω2",
+    "cb": "Cb",
+}
+
+
+@dataclass(frozen=True)
+class Step:
+    """One step of a derivation: a title, the clause it follows, and its lines of working."""
+
+    title: str
+    clause: str
+    lines: list[str] = field(default_factory=list)
+
+
+def find_pair(result: CheckResult, segment: str, combination: str) -> pd.Series:
+    """Return the result row of one segment in one combination.
+
+    Raises:
+        KeyError: with the names that exist, when either is unknown.
+    """
+    r = result.results
+    segs = r["segment"].astype(str)
+    combos = r["combination"].astype(str)
+    if segment not in set(segs):
+        raise KeyError(f"no segment '{segment}' (see 'flangewise members' for the names)")
+    if combination not in set(combos):
+        raise KeyError(
+            f"no load combination '{combination}'; there are: {', '.join(sorted(set(combos)))}"
+        )
+    hit = r[(segs == segment) & (combos == combination)]
+    if hit.empty:
+        raise KeyError(f"segment '{segment}' has no forces in '{combination}'")
+    return hit.iloc[0]
+
+
+def derivation(result: CheckResult, row: pd.Series) -> list[Step]:
+    """Return the steps from section properties to utilization for one result row."""
+    seg = result.layout.segments.table.loc[row["segment"]]
+    props = result.sections.loc[row["section"]]
+    s = result.settings
+    steps = [
+        _section_step(row, props),
+        _length_step(row, seg),
+        _diagram_step(row),
+        _gradient_step(row, seg),
+        Step(
+            "Elastic critical moment",
+            "SANS 10162-1:2011, cl. 13.6(a)",
+            [
+                "Mcr = (ω2·π/L)·√(E·Iy·G·J + (π·E/L)²·Iy·Cw)",
+                f"    = ({row['factor']:.3f}·π/{row['length']:.0f} mm)·√({s.E:.0f}·"
+                f"{props['Iy']:.4g}·{s.G:.0f}·{props['J']:.4g} + (π·{s.E:.0f}/"
+                f"{row['length']:.0f})²·{props['Iy']:.4g}·{props['Cw']:.4g})",
+                f"    = {row['Mcr'] / KNM:.1f} kN·m",
+            ],
+        ),
+        _resistance_step(row, s.phi),
+        Step(
+            "Demand and utilization",
+            "demand / Mr",
+            _demand_lines(row),
+        ),
+    ]
+    flags = str(row["flags"])
+    if flags:
+        steps.append(
+            Step(
+                "Flags",
+                "README, Flags",
+                [f"{name}: {FLAGS[name]}" for name in flags.split()],
+            )
+        )
+    return steps
+
+
+def _section_step(row: pd.Series, p: pd.Series) -> Step:
+    root = math.sqrt(p["fy"])
+    bt = p["b"] / (2.0 * p["tf"])
+    hw = (p["d"] - 2.0 * p["tf"]) / p["tw"]
+    cls = int(row["section_class"])
+    base = "Mp = Zx·fy" if cls <= 2 else "My = Sx·fy"
+    given = f" (given in the sections table: {p['given']})" if p["given"] else ""
+    lines = [
+        f"{row['section']}: d = {p['d']:.1f}, b = {p['b']:.1f}, tf = {p['tf']:.1f}, "
+        f"tw = {p['tw']:.1f}, r = {p['r']:.1f} mm; fy = {p['fy']:.0f} MPa",
+        f"A = {p['A']:.0f} mm², Ix = {p['Ix'] / 1e6:.2f}e6 mm⁴, Iy = {p['Iy'] / 1e6:.3f}e6 mm⁴, "
+        f"Sx = {p['Sx'] / 1e3:.0f}e3 mm³, Zx = {p['Zx'] / 1e3:.0f}e3 mm³, "
+        f"J = {p['J'] / 1e3:.1f}e3 mm⁴, Cw = {p['Cw'] / 1e9:.1f}e9 mm⁶{given}",
+        f"flange b/2tf = {bt:.2f}; limits 145/√fy = {FLANGE_LIMITS[0] / root:.2f}, "
+        f"170/√fy = {FLANGE_LIMITS[1] / root:.2f}, 200/√fy = {FLANGE_LIMITS[2] / root:.2f}",
+        f"web h/w = {hw:.1f}; limits 1100/√fy = {WEB_LIMITS[0] / root:.1f}, "
+        f"1700/√fy = {WEB_LIMITS[1] / root:.1f}, 1900/√fy = {WEB_LIMITS[2] / root:.1f}",
+        f"class {cls}"
+        + (": NOT CHECKED by this tool" if cls >= 4 else f": resistance from {base}")
+        + (f" = {row['M_base'] / KNM:.1f} kN·m" if cls < 4 else ""),
+    ]
+    return Step("Section properties and class", "SANS 10162-1:2011, Table 3", lines)
+
+
+def _length_step(row: pd.Series, seg: pd.Series) -> Step:
+    def end(node: str, braced: bool, free: bool) -> str:
+        if free:
+            return f"{node} (free end)"
+        return f"{node} ({'braced' if braced else 'NOT braced'})"
+
+    lines = [
+        f"member {row['member']}, {row['flange']} flange: from "
+        f"{end(seg['node_start'], seg['braced_start'], seg['free_start'])} at "
+        f"{seg['s_start'] / M:.3f} m to {end(seg['node_end'], seg['braced_end'], seg['free_end'])}"
+        f" at {seg['s_end'] / M:.3f} m",
+        f"L = {row['length'] / M:.3f} m",
+    ]
+    if seg["assumed"]:
+        lines.append("an end is held only by an inferred (assumed) brace: verify the connection")
+    return Step("Unbraced length", "segment between points that hold the flange", lines)
+
+
+def _diagram_step(row: pd.Series) -> Step:
+    flange = row["flange"]
+    sign = (
+        "moments as the model gives them"
+        if flange == "either"
+        else f"positive = compression in the {flange} flange"
+    )
+    peak = (
+        f"largest |M| inside: {row['inside_peak'] / KNM:.2f} kN·m at "
+        f"{row['inside_peak_at'] / M:.3f} m from the segment start"
+        if not math.isnan(row["inside_peak_at"])
+        else "no station inside the segment"
+    )
+    return Step(
+        "Moment diagram of the segment",
+        "from the analysis, this load combination",
+        [
+            f"{sign}; load combination {row['combination']}",
+            f"M at start = {row['M_start'] / KNM:.2f} kN·m, M at end = {row['M_end'] / KNM:.2f} "
+            f"kN·m, largest |M| = {row['M_max'] / KNM:.2f} kN·m",
+            peak,
+            f"|M| at L/4, L/2, 3L/4 = {row['M_a'] / KNM:.2f}, {row['M_b'] / KNM:.2f}, "
+            f"{row['M_c'] / KNM:.2f} kN·m",
+        ],
+    )
+
+
+def _gradient_step(row: pd.Series, seg: pd.Series) -> Step:
+    kappa = row["kappa"]
+    lines = []
+    if math.isnan(kappa):
+        lines.append("κ: both end moments are zero, there is no ratio")
+    else:
+        curvature = (
+            "one end moment zero"
+            if kappa == 0
+            else ("double curvature" if kappa > 0 else "single curvature")
+        )
+        lines.append(f"κ = smaller / larger end moment = {kappa:+.3f} ({curvature} curvature)")
+        lines.append(
+            f"end-moment ω2 = 1.75 + 1.05κ + 0.3κ² = {row['omega2_formula']:.3f} "
+            f"(≤ 2.5) [SANS 10162-1:2011, cl. 13.6(a)]"
+        )
+    flags = set(str(row["flags"]).split())
+    large = max(abs(row["M_start"]), abs(row["M_end"])) / KNM
+    if "peak-inside" in flags:
+        lines.append(
+            f"  NOT APPLICABLE: inside, |M| = {row['inside_peak'] / KNM:.2f} kN·m at "
+            f"{row['inside_peak_at'] / M:.3f} m exceeds the larger end moment {large:.2f} kN·m "
+            f"(by more than {INSIDE_TOLERANCE:.1%}): ω2 = 1.0"
+        )
+    elif "zero-ends" in flags:
+        lines.append("  NOT APPLICABLE: both end moments are zero: ω2 = 1.0")
+    elif "few-stations" in flags:
+        lines.append(
+            f"  CANNOT BE SHOWN TO APPLY: fewer than {MIN_INSIDE_STATIONS} stations inside the "
+            "segment: ω2 = 1.0"
+        )
+    else:
+        lines.append(
+            f"  applies: no moment inside exceeds the larger end moment ({large:.2f} kN·m)"
+        )
+    lines.append(
+        f"quarter-point ω2 = 4·Mmax/√(Mmax² + 4Ma² + 7Mb² + 4Mc²) = {row['omega2_qp']:.3f} "
+        "(≤ 2.5) [CSA S16-14, cl. 13.6(a)(ii)]"
+    )
+    lines.append(
+        f"Cb = 12.5·Mmax/(2.5·Mmax + 3MA + 4MB + 3MC) = {row['cb']:.3f} [AISC 360-16, Eq. F1-1]"
+    )
+    method = METHOD_NAMES[str(row["method"])]
+    if seg["cantilever"]:
+        why = "cantilever segment: 1.0"
+    elif not (seg["braced_start"] and seg["braced_end"]):
+        why = "compression flange not braced at one end: 1.0"
+    elif "few-stations" in flags:
+        why = "too few stations inside the segment: 1.0"
+    elif row["method"] == "end_moment" and flags & {"peak-inside", "zero-ends"}:
+        why = "the end-moment formula does not apply here: 1.0"
+    else:
+        why = f"{method} applies"
+    lines.append(f"design basis: {method} → factor used = {row['factor']:.3f} ({why})")
+    return Step("Moment-gradient factor", "see each line", lines)
+
+
+def _resistance_step(row: pd.Series, phi: float) -> Step:
+    base = row["M_base"] / KNM
+    mcr = row["Mcr"] / KNM
+    name = "Mp" if row["section_class"] <= 2 else "My"
+    if row["section_class"] >= 4:
+        return Step(
+            "Factored resistance", "SANS 10162-1:2011, cl. 13.6(a)", ["class 4: not checked"]
+        )
+    if mcr > INELASTIC_SWITCH * base:
+        lines = [
+            f"Mcr = {mcr:.1f} > 0.67·{name} = {INELASTIC_SWITCH * base:.1f} kN·m: inelastic",
+            f"Mr = 1.15·φ·{name}·(1 − 0.28·{name}/Mcr) = 1.15·{phi}·{base:.1f}·(1 − 0.28·"
+            f"{base:.1f}/{mcr:.1f}) = {1.15 * phi * base * (1 - 0.28 * base / mcr):.1f} kN·m",
+            f"≤ φ·{name} = {phi * base:.1f} kN·m → Mr = {row['Mr'] / KNM:.1f} kN·m",
+        ]
+    else:
+        lines = [
+            f"Mcr = {mcr:.1f} ≤ 0.67·{name} = {INELASTIC_SWITCH * base:.1f} kN·m: elastic",
+            f"Mr = φ·Mcr = {phi}·{mcr:.1f} = {row['Mr'] / KNM:.1f} kN·m",
+        ]
+    return Step("Factored resistance", "SANS 10162-1:2011, cl. 13.6(a)", lines)
+
+
+def _demand_lines(row: pd.Series) -> list[str]:
+    if row["status"] == "not critical":
+        return [f"the {row['flange']} flange is nowhere in compression: not critical"]
+    if row["status"] == "not checked":
+        return ["class 4 section: not checked"]
+    return [
+        f"demand = largest moment compressing the {row['flange']} flange = "
+        f"{row['demand'] / KNM:.2f} kN·m",
+        f"utilization = {row['demand'] / KNM:.2f} / {row['Mr'] / KNM:.1f} = "
+        f"{row['utilization']:.3f} → {str(row['status']).upper()}",
+    ]
+
+
+def derivation_text(result: CheckResult, row: pd.Series) -> str:
+    """Return the derivation as plain text for the terminal."""
+    lines = [
+        f"Segment {row['segment']} (member {row['member']}, {row['flange']} flange), "
+        f"load combination {row['combination']}",
+        "",
+    ]
+    for i, step in enumerate(derivation(result, row), start=1):
+        lines.append(f"{i}. {step.title}   [{step.clause}]")
+        lines.extend(f"   {line}" for line in step.lines)
+        lines.append("")
+    return "\n".join(lines)
