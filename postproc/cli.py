@@ -25,7 +25,7 @@ from readers import InputError, load_model
 F = TypeVar("F", bound=Callable[..., Any])
 
 #: The sample model the ``demo`` command runs on, and where it writes.
-DEMO_SAMPLE = "two_span_beam"
+DEMO_SAMPLE = "industrial_shed"
 DEMO_OUT = "flangewise-demo"
 
 
