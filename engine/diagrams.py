@@ -37,6 +37,8 @@ class SegmentDiagrams:
             steep member's "either" segment: the model's own sign).
         offsets: start of each run in ``x`` and ``m``; ``len(pairs) + 1`` entries.
         combinations: the load combination names.
+        stations: every force station along its member (see :func:`member_stations`), for
+            drawing whole-member diagrams.
     """
 
     pairs: pd.DataFrame
@@ -44,6 +46,7 @@ class SegmentDiagrams:
     m: np.ndarray
     offsets: np.ndarray
     combinations: list[str]
+    stations: pd.DataFrame
 
 
 def member_stations(model: Model, members: Members) -> pd.DataFrame:
@@ -123,4 +126,35 @@ def segment_diagrams(model: Model, members: Members, segments: Segments) -> Segm
             "demand": demand,
         }
     )
-    return SegmentDiagrams(pairs=pairs, x=x, m=m, offsets=offsets, combinations=combos)
+    return SegmentDiagrams(pairs=pairs, x=x, m=m, offsets=offsets, combinations=combos, stations=st)
+
+
+def station_key(diagrams: SegmentDiagrams, members: Members) -> np.ndarray:
+    """The sort key of the stations, for repeated :func:`member_diagram` look-ups."""
+    st = diagrams.stations
+    return st["combination"].to_numpy() * (len(members.elements) + 1) + st["element"].to_numpy()
+
+
+def member_diagram(
+    diagrams: SegmentDiagrams,
+    members: Members,
+    member: str,
+    combination: str,
+    key: np.ndarray | None = None,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Return (s [mm], M [N·mm]) of one member in one combination, in member order.
+
+    Stations are sorted by (combination, element row) and a member's elements are consecutive
+    rows of ``members.elements``, so the block is found by binary search, not by a scan.
+    """
+    el = members.elements
+    rows = np.flatnonzero(el["member"].to_numpy() == member)
+    if len(rows) == 0 or combination not in diagrams.combinations:
+        return np.zeros(0), np.zeros(0)
+    c = diagrams.combinations.index(combination)
+    st = diagrams.stations
+    if key is None:
+        key = station_key(diagrams, members)
+    lo = np.searchsorted(key, c * (len(el) + 1) + rows[0], side="left")
+    hi = np.searchsorted(key, c * (len(el) + 1) + rows[-1], side="right")
+    return st["s"].to_numpy()[lo:hi], st["M"].to_numpy()[lo:hi]

@@ -19,8 +19,9 @@ from postproc.derivation import derivation_text, find_pair
 from postproc.exports import CAUTION
 from postproc.files import write_atomic
 from postproc.members_view import members_text, segment_rows
+from postproc.report import build_report
 from postproc.summary import model_summary
-from readers import InputError, load_model
+from readers import InputError, Model, load_model
 
 F = TypeVar("F", bound=Callable[..., Any])
 
@@ -114,6 +115,7 @@ def _run_check(
     members_wanted: tuple[str, ...],
     combinations: tuple[str, ...],
     method: str | None,
+    report: bool = False,
 ) -> int:
     """Load, check, write and summarise; return the number of pairs over 1.0."""
     show = sys.stdout.isatty()
@@ -138,6 +140,9 @@ def _run_check(
             seg = seg[seg["member"].isin(members_wanted)].reset_index(drop=True)
         next(it, None)
         info = exports.summary(result, seg, model)
+        texts = {}
+        if report:
+            texts["report.html"] = build_report(result, model, _settings_line(loaded))
         exports.write_results(
             out,
             {
@@ -146,11 +151,23 @@ def _run_check(
                 "flagged.csv": exports.flagged_table(seg),
             },
             info,
+            texts=texts,
         )
     click.echo(exports.summary_text(info))
-    click.echo(f"Results        : {out}/ (segments.csv, governing.csv, flagged.csv, summary.json)")
+    names = ", ".join([*exports.RESULT_FILES, *texts])
+    click.echo(f"Results        : {out}/ ({names})")
     click.echo(CAUTION)
     return int(info["pairs over 1.0"])
+
+
+def _settings_line(model: Model) -> str:
+    s = model.settings
+    u = s.units
+    source = s.source.name if s.source else "no settings file (canonical layout)"
+    return (
+        f"{source}; input units {u.length}, {u.force}, {u.moment}, sections {u.section}, "
+        f"{u.stress}; {len(model.combinations)} load combinations"
+    )
 
 
 class _Null:
@@ -191,6 +208,11 @@ class _Null:
     help="Design-basis gradient method (default: the settings file's, else end_moment).",
 )
 @click.option(
+    "--report",
+    is_flag=True,
+    help="Also write report.html: diagrams and step-by-step checks for review.",
+)
+@click.option(
     "--exit-zero",
     is_flag=True,
     help="Exit with status 0 even when a segment is over 1.0.",
@@ -203,6 +225,7 @@ def check(
     members_wanted: tuple[str, ...],
     combinations: tuple[str, ...],
     method: str | None,
+    report: bool,
     exit_zero: bool,
 ) -> None:
     """Check every unbraced segment of MODEL in every load combination.
@@ -211,7 +234,7 @@ def check(
     --exit-zero), 2 for input that cannot be used, 3 when the results could not be written
     (earlier results are then left as they were).
     """
-    over = _run_check(model, settings_file, out, members_wanted, combinations, method)
+    over = _run_check(model, settings_file, out, members_wanted, combinations, method, report)
     if over and not exit_zero:
         sys.exit(1)
 
@@ -258,4 +281,4 @@ def demo() -> None:
     """Check the bundled sample model into ./flangewise-demo (no arguments needed)."""
     folder = sample_path(DEMO_SAMPLE)
     click.echo(f"Sample model: {DEMO_SAMPLE}")
-    _run_check(folder, None, Path(DEMO_OUT), (), (), None)
+    _run_check(folder, None, Path(DEMO_OUT), (), (), None, report=True)

@@ -169,6 +169,7 @@ def write_results(
     tables: dict[str, pd.DataFrame],
     info: dict[str, Any],
     before_replace: Callable[[str], None] | None = None,
+    texts: dict[str, str] | None = None,
 ) -> list[Path]:
     """Write every result file into ``out`` so that a failure leaves the old results intact.
 
@@ -183,14 +184,18 @@ def write_results(
         info: the summary, written as JSON.
         before_replace: called with each file name just before it replaces the old one (a hook
             for tests that inject a failure).
+        texts: file name -> text, for other files (the HTML report).
     """
     out.mkdir(parents=True, exist_ok=True)
     stage = Path(tempfile.mkdtemp(prefix=".flangewise-", dir=out))
     moved: list[str] = []  # old files parked in the staging folder, to put back on failure
-    names = [*tables, "summary.json"]
+    texts = texts or {}
+    names = [*tables, *texts, "summary.json"]
     try:
         for name, table in tables.items():
             write_csv(stage / name, table)
+        for name, text in texts.items():
+            _write(stage / name, lambda fh, t=text: fh.write(t))
         _write(
             stage / "summary.json",
             lambda fh: json.dump(info, fh, indent=2, ensure_ascii=False, default=_json_default),
@@ -215,17 +220,27 @@ def write_results(
         shutil.rmtree(stage, ignore_errors=True)
 
 
-def write_csv(path: Path, table: pd.DataFrame, decimals: int = 4) -> None:
+def write_csv(path: Path, table: pd.DataFrame, decimals: int = 4, chunk: int = 100_000) -> None:
     """Write a table as CSV with pyarrow's writer, floats rounded to ``decimals`` places.
 
     pandas formats every float in Python when given a format; at a million result rows that
-    takes tens of seconds, pyarrow's C++ writer well under one. Missing values are empty cells.
+    takes tens of seconds, pyarrow's C++ writer well under one. Rows go out in chunks, so only
+    one chunk is ever held twice in memory. Missing values are empty cells.
     """
-    rounded = table.copy()
-    for column in rounded.columns:
-        if pd.api.types.is_float_dtype(rounded[column].dtype):
-            rounded[column] = rounded[column].round(decimals) + 0.0  # + 0.0: no "-0"
-    pacsv.write_csv(pa.Table.from_pandas(rounded, preserve_index=False), path)
+    floats = [c for c in table.columns if pd.api.types.is_float_dtype(table[c].dtype)]
+    writer = None
+    try:
+        for start in range(0, max(len(table), 1), chunk):
+            part = table.iloc[start : start + chunk].copy()
+            for column in floats:
+                part[column] = part[column].round(decimals) + 0.0  # + 0.0: no "-0"
+            batch = pa.Table.from_pandas(part, preserve_index=False)
+            if writer is None:
+                writer = pacsv.CSVWriter(path, batch.schema)
+            writer.write_table(batch)
+    finally:
+        if writer is not None:
+            writer.close()
 
 
 def _write(path: Path, write: Callable[[IO[str]], None]) -> None:

@@ -87,27 +87,32 @@ def test_filters_by_member_and_combination(tmp_path):
     assert "X9" in unknown.output
 
 
-@pytest.mark.parametrize("fail_at", ["segments.csv", "flagged.csv", "summary.json"])
+FILES = [*exports.RESULT_FILES, "report.html"]
+
+
+@pytest.mark.parametrize("fail_at", ["segments.csv", "flagged.csv", "report.html", "summary.json"])
 def test_failure_while_writing_leaves_earlier_results_intact(tmp_path, monkeypatch, fail_at):
     out = tmp_path / "res"
-    first = CliRunner().invoke(main, ["check", str(SAMPLE), "--out", str(out)])
+    first = CliRunner().invoke(main, ["check", str(SAMPLE), "--out", str(out), "--report"])
     assert first.exit_code == 0, first.output
-    before = {name: (out / name).read_bytes() for name in exports.RESULT_FILES}
+    before = {name: (out / name).read_bytes() for name in FILES}
 
     real = exports.write_results
 
-    def failing(out_dir, tables, info, before_replace=None):
+    def failing(out_dir, tables, info, before_replace=None, texts=None):
         def boom(name):
             if name == fail_at:
                 raise OSError("disk full (injected)")
 
-        return real(out_dir, tables, info, before_replace=boom)
+        return real(out_dir, tables, info, before_replace=boom, texts=texts)
 
     monkeypatch.setattr(exports, "write_results", failing)
-    second = CliRunner().invoke(main, ["check", str(SAMPLE), "--out", str(out), "--method", "cb"])
+    second = CliRunner().invoke(
+        main, ["check", str(SAMPLE), "--out", str(out), "--method", "cb", "--report"]
+    )
     assert second.exit_code == 3
     assert "unchanged" in second.stderr
     assert "Traceback" not in second.output
-    after = {name: (out / name).read_bytes() for name in exports.RESULT_FILES}
+    after = {name: (out / name).read_bytes() for name in FILES}
     assert after == before  # the whole earlier set, byte for byte
-    assert sorted(p.name for p in out.iterdir()) == sorted(exports.RESULT_FILES)
+    assert sorted(p.name for p in out.iterdir()) == sorted(FILES)

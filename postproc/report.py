@@ -1,0 +1,239 @@
+"""The review report: one self-contained HTML file (inline CSS and SVG, no scripts, no network).
+
+An overview (model, settings, counts, the members nearest failure, a chart of every member's
+governing utilization, flag counts), then one section per governing and per flagged segment: the
+member's moment diagram with brace points and the segment shaded, and the derivation step by step
+with the clause beside each step. The caution stands at the top and in every section.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from html import escape
+from importlib.metadata import version
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from engine.check import CheckResult
+from engine.diagrams import member_diagram, station_key
+from engine.flags import FLAGS
+from postproc.derivation import derivation
+from postproc.exports import CAUTION, METHOD_WORDS
+from postproc.svg import Marker, moment_diagram, utilization_bars
+
+KNM = 1.0e6
+M = 1.0e3
+
+#: At most this many segment sections (governing first, then flagged); the rest are counted.
+MAX_SECTIONS = 200
+#: At most this many members in the utilization chart (the highest first).
+MAX_BARS = 300
+
+CSS = """
+body { font-family: Georgia, 'DejaVu Serif', serif; color: #1b1b1b; max-width: 62rem;
+       margin: 1.5rem auto; padding: 0 1rem; line-height: 1.4; }
+h1 { font-size: 1.6rem; margin-bottom: .2rem; } h2 { font-size: 1.25rem; margin-top: 2rem;
+border-bottom: 2px solid #1b1b1b; } h3 { font-size: 1.05rem; margin: 1.2rem 0 .3rem; }
+.caution { border: 2px solid #8a1c1c; padding: .5rem .8rem; margin: .8rem 0; font-size: .92rem; }
+table { border-collapse: collapse; margin: .5rem 0; font-size: .9rem; }
+td, th { border: 1px solid #999; padding: .2rem .5rem; vertical-align: top; text-align: left; }
+th { background: #eee; } td.num { text-align: right; font-variant-numeric: tabular-nums; }
+.steps td.clause { font-size: .8rem; color: #444; width: 13rem; }
+.steps td.work { font-family: 'DejaVu Sans Mono', monospace; font-size: .8rem;
+                 white-space: pre-wrap; }
+section.segment { border-top: 1px solid #999; margin-top: 1.5rem; }
+.meta { color: #444; font-size: .9rem; }
+.over { color: #8a1c1c; font-weight: bold; }
+svg { width: 100%; height: auto; max-width: 760px; display: block; margin: .4rem 0; }
+svg .axis { stroke: #333; stroke-width: 1; } svg .line { fill: none; stroke: #1f3f8a;
+stroke-width: 2; } svg .area { fill: #1f3f8a; fill-opacity: .12; }
+svg .shade { fill: #d9b44a; fill-opacity: .28; } svg .cap { font: bold 13px sans-serif; }
+svg .tick { font: 11px sans-serif; fill: #333; } svg .lab { font: bold 11px sans-serif; }
+svg .dot { fill: #8a1c1c; } svg .brace-top { fill: #2b6e2b; } svg .brace-bottom { fill: #8a4b00; }
+svg .bar { fill: #1f3f8a; } svg .bar.over { fill: #8a1c1c; }
+svg .limit { stroke: #8a1c1c; stroke-dasharray: 4 3; }
+@media print { section.segment { break-before: page; } body { max-width: none; } }
+"""
+
+
+def build_report(result: CheckResult, model_folder: Path, settings_text: str) -> str:
+    """Return the whole report as one HTML string.
+
+    Args:
+        result: the check's results.
+        model_folder: the model that was checked (shown in the header).
+        settings_text: a one-line description of the input settings (units, source file).
+    """
+    r = result.results
+    gov = _governing(r)
+    flagged = r.index[r["flags"].astype(str) != ""]
+    picked = list(dict.fromkeys([*gov.index, *flagged]))
+    shown, omitted = picked[:MAX_SECTIONS], max(0, len(picked) - MAX_SECTIONS)
+    key = station_key(result.layout.diagrams, result.layout.members)
+    body = [
+        _header(result, model_folder, settings_text),
+        _overview(result, gov, omitted),
+        "<h2>Governing and flagged segments</h2>",
+    ]
+    reasons = {i: ("governing" if i in gov.index else "flagged") for i in shown}
+    body.extend(_segment_section(result, r.loc[i], reasons[i], key) for i in shown)
+    return (
+        "<!DOCTYPE html>\n<html lang='en'><head><meta charset='utf-8'>"
+        f"<title>flangewise review: {escape(model_folder.name)}</title>"
+        f"<style>{CSS}</style></head><body>{''.join(body)}</body></html>\n"
+    )
+
+
+def _governing(r: pd.DataFrame) -> pd.DataFrame:
+    """Each member's checked pair of highest utilization, highest first."""
+    checked = r[r["status"].isin(["ok", "over"])]
+    if checked.empty:
+        return checked
+    idx = checked.groupby("member", observed=True)["utilization"].idxmax()
+    return checked.loc[idx.to_numpy()].sort_values("utilization", ascending=False)
+
+
+def _header(result: CheckResult, folder: Path, settings_text: str) -> str:
+    s = result.settings
+    when = dt.datetime.now().strftime("%Y-%m-%d %H:%M")
+    return (
+        "<h1>Lateral-torsional buckling review</h1>"
+        f"<p class='meta'>Model <b>{escape(str(folder))}</b> · {escape(settings_text)} · "
+        f"flangewise {escape(version('flangewise'))} · {when}</p>"
+        f"<p class='meta'>Design basis: {escape(METHOD_WORDS[s.gradient])}; E = {s.E:.0f} MPa, "
+        f"G = {s.G:.0f} MPa, φ = {s.phi}</p>"
+        f"<div class='caution'>{escape(CAUTION)}</div>"
+    )
+
+
+def _overview(result: CheckResult, gov: pd.DataFrame, omitted: int) -> str:
+    r = result.results
+    status = r["status"].astype(str)
+    counts = [
+        ("members", r["member"].nunique()),
+        ("unbraced segments", r["segment"].nunique()),
+        ("load combinations", r["combination"].nunique()),
+        ("segment × combination pairs checked", int(status.isin(["ok", "over"]).sum())),
+        (
+            "pairs not critical (flange nowhere in compression)",
+            int((status == "not critical").sum()),
+        ),
+        ("pairs NOT CHECKED (class 4)", int((status == "not checked").sum())),
+        ("pairs over 1.0", int((status == "over").sum())),
+    ]
+    rows = "".join(f"<tr><td>{escape(k)}</td><td class='num'>{v}</td></tr>" for k, v in counts)
+    nearest = "".join(
+        f"<tr><td>{escape(str(g['member']))}</td><td>{escape(str(g['segment']))}</td>"
+        f"<td>{escape(str(g['combination']))}</td><td class='num'>{g['length'] / M:.2f}</td>"
+        f"<td class='num'>{g['factor']:.2f}</td><td class='num'>{g['Mr'] / KNM:.1f}</td>"
+        f"<td class='num {'over' if g['utilization'] > 1 else ''}'>{g['utilization']:.3f}</td>"
+        "</tr>"
+        for _, g in gov.head(10).iterrows()
+    )
+    members = r["member"].astype(str).unique().tolist()
+    util = gov.set_index(gov["member"].astype(str))["utilization"]
+    values = [float(util.get(name, np.nan)) for name in members]
+    order = np.argsort([-(v if np.isfinite(v) else -1.0) for v in values], kind="stable")
+    names = [members[i] for i in order][:MAX_BARS]
+    vals = [values[i] for i in order][:MAX_BARS]
+    flag_rows = "".join(
+        f"<tr><td>{escape(name)}</td><td class='num'>{int(r[f'flag_{name}'].sum())}</td>"
+        f"<td>{escape(meaning)}</td></tr>"
+        for name, meaning in FLAGS.items()
+    )
+    more = (
+        f"<p class='meta'>{omitted} more governing or flagged segments are in the CSV files "
+        "but not drawn here.</p>"
+        if omitted
+        else ""
+    )
+    return (
+        "<h2>Overview</h2>"
+        f"<table>{rows}</table>"
+        "<h3>Members nearest failure</h3>"
+        "<table><tr><th>member</th><th>segment</th><th>load combination</th><th>Lu [m]</th>"
+        "<th>factor</th><th>Mr [kN·m]</th><th>utilization</th></tr>"
+        f"{nearest}</table>"
+        + utilization_bars(names, vals, "utilization-chart")
+        + (
+            f"<p class='meta'>The {len(members) - MAX_BARS} members below these are left out of "
+            "the chart.</p>"
+            if len(members) > MAX_BARS
+            else ""
+        )
+        + "<h3>Flags</h3><table><tr><th>flag</th><th>pairs</th><th>meaning</th></tr>"
+        + flag_rows
+        + "</table>"
+        + more
+    )
+
+
+def _segment_section(result: CheckResult, row: pd.Series, reason: str, key: np.ndarray) -> str:
+    layout = result.layout
+    seg = layout.segments.table.loc[row["segment"]]
+    member = str(row["member"])
+    s, m = member_diagram(layout.diagrams, layout.members, member, str(row["combination"]), key)
+    st = layout.segments.stations
+    mst = st[st["member"] == member]
+    markers = [
+        Marker(
+            float(p) / M,
+            "both" if (t and b) else ("top" if t else "bottom"),
+            str(n),
+        )
+        for p, t, b, n in zip(mst["s"], mst["top"], mst["bottom"], mst["node"], strict=True)
+        if t or b
+    ]
+    sign = -1.0 if row["flange"] == "bottom" else 1.0  # results are in flange-compression sign
+    labels = [
+        (seg["s_start"] / M, sign * row["M_start"] / KNM, f"{sign * row['M_start'] / KNM:.1f}"),
+        (seg["s_end"] / M, sign * row["M_end"] / KNM, f"{sign * row['M_end'] / KNM:.1f}"),
+    ]
+    if "peak-inside" in str(row["flags"]).split():
+        at = seg["s_start"] + row["inside_peak_at"]
+        near = int(np.argmin(np.abs(s - at))) if len(s) else 0
+        value = float(m[near]) / KNM if len(m) else 0.0
+        labels.append((at / M, value, f"inside {value:.1f}"))
+    flange = {"top": "top flange", "bottom": "bottom flange", "either": "either flange"}[
+        str(row["flange"])
+    ]
+    svg_id = f"diagram-{row['segment']}-{row['combination']}".replace(" ", "_")
+    chart = moment_diagram(
+        s / M,
+        m / KNM,
+        (seg["s_start"] / M, seg["s_end"] / M),
+        markers,
+        labels,
+        f"Member {member}, {row['combination']}: moment diagram, segment {row['segment']} shaded",
+        svg_id,
+    )
+    steps = "".join(
+        f"<tr><td><b>{i}. {escape(step.title)}</b></td>"
+        f"<td class='work'>{escape(chr(10).join(step.lines))}</td>"
+        f"<td class='clause'>{escape(step.clause)}</td></tr>"
+        for i, step in enumerate(derivation(result, row), start=1)
+    )
+    util = row["utilization"]
+    verdict = (
+        f"utilization <span class='{'over' if util > 1 else ''}'>{util:.3f}</span>"
+        if np.isfinite(util)
+        else escape(str(row["status"]))
+    )
+    flags = escape(str(row["flags"])) or "none"
+    return (
+        f"<section class='segment' id='{escape(svg_id.replace('diagram-', 'seg-'))}'>"
+        f"<h3>{escape(str(row['segment']))} · {escape(str(row['combination']))} "
+        f"({reason})</h3>"
+        f"<p>Member {escape(member)}, section {escape(str(row['section']))}; "
+        f"compression checked in the <b>{flange}</b>; from node {escape(str(seg['node_start']))}"
+        f" to {escape(str(seg['node_end']))}, Lu = {row['length'] / M:.3f} m; {verdict}; "
+        f"flags: {flags}.</p>"
+        f"{chart}"
+        "<p class='meta'>▼ top flange braced · ▲ bottom flange braced · shaded: this segment</p>"
+        f"<table class='steps'><tr><th>step</th><th>working</th><th>clause</th></tr>{steps}"
+        "</table>"
+        f"<div class='caution'>{escape(CAUTION)}</div>"
+        "</section>"
+    )
