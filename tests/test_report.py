@@ -1,0 +1,158 @@
+"""The review report renders in a real browser, and explain agrees with the results CSV.
+
+The browser is headless Chromium (Debian's package; `.ci/run` installs it). Without it the browser
+tests are skipped on a developer's machine and fail in CI, where it must be present.
+"""
+
+from __future__ import annotations
+
+import os
+import re
+import shutil
+import struct
+import subprocess
+from pathlib import Path
+
+import pandas as pd
+import pytest
+from click.testing import CliRunner
+
+from postproc.cli import main, sample_path
+
+CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
+FLAGS = [
+    "--headless",
+    "--no-sandbox",
+    "--disable-gpu",
+    "--disable-quic",
+    "--no-first-run",
+    "--disable-background-networking",
+    "--disable-component-update",
+    "--disable-sync",
+]
+
+#: Per sample, a governing segment (so the report draws it) and its combination.
+CHOSEN = {
+    # Frame C's windward knee under uplift: the governing segment of that rafter.
+    "industrial_shed": ("from C04 to C05, top flange", "ULS2 0.9D+1.3W"),
+    # Girder 1 over the middle span, no kickers: the governing segment of the platform.
+    "plant_platform": ("from 105 to 110, bottom flange", "K1 1,2G+1,6Q"),
+}
+
+
+def _need_browser() -> str:
+    if CHROMIUM is None:
+        if os.environ.get("CI"):
+            pytest.fail("Chromium is required in CI (.ci/run installs it)")
+        pytest.skip("Chromium is not installed (apt-get install chromium)")
+    return CHROMIUM
+
+
+def _report(sample: str, out: Path) -> tuple[Path, pd.DataFrame]:
+    result = CliRunner().invoke(
+        main, ["check", str(sample_path(sample)), "--out", str(out), "--report"]
+    )
+    assert result.exit_code == 0, result.output
+    seg = pd.read_csv(out / "segments.csv", dtype={"from node": str, "to node": str})
+    return out / "report.html", seg
+
+
+def _chosen_segment(sample: str, seg: pd.DataFrame) -> pd.Series:
+    where, combo = CHOSEN[sample]
+    node_a, node_b, flange = re.match(r"from (\S+) to (\S+), (\w+) flange", where).groups()
+    hit = seg[
+        (seg["from node"] == node_a)
+        & (seg["to node"] == node_b)
+        & (seg["flange"] == flange)
+        & (seg["combination"] == combo)
+    ]
+    assert len(hit) == 1
+    return hit.iloc[0]
+
+
+def _run(browser: str, *args: str, tmp: Path) -> subprocess.CompletedProcess[str]:
+    return subprocess.run(
+        [browser, *FLAGS, f"--user-data-dir={tmp / 'profile'}", *args],
+        capture_output=True,
+        text=True,
+        timeout=120,
+        check=True,
+    )
+
+
+@pytest.mark.parametrize("sample", sorted(CHOSEN))
+def test_report_renders_with_diagrams_and_the_derivation(sample, tmp_path):
+    browser = _need_browser()
+    html, seg = _report(sample, tmp_path / "out")
+    row = _chosen_segment(sample, seg)
+    url = html.resolve().as_uri()
+
+    dom = _run(browser, "--dump-dom", url, tmp=tmp_path).stdout
+    # The overview chart and the chosen segment's diagram, as the browser built them.
+    assert 'id="utilization-chart"' in dom
+    diagram = f'id="diagram-{row["segment"]}-{row["combination"]}"'.replace(" ", "_")
+    assert diagram in dom
+    section = dom[dom.index(diagram) :]
+    section = section[: section.index("</section>")]
+    # The derivation of that segment: every step, with the numbers of the results CSV.
+    for step in (
+        "Section properties and class",
+        "Unbraced length",
+        "Moment-gradient factor",
+        "Elastic critical moment",
+        "Factored resistance",
+        "Demand and utilization",
+    ):
+        assert step in section
+    assert f"= {row['Mcr [kN·m]']:.1f} kN·m" in section
+    assert (
+        f"Mr = {row['Mr [kN·m]']:.1f} kN·m" in section
+        or f"= {row['Mr [kN·m]']:.1f} kN·m" in section
+    )
+    assert "utilization = " in section
+    assert "competent engineer" in section  # the caution in every section
+
+    shot = tmp_path / "report.png"
+    _run(browser, "--window-size=1100,2400", f"--screenshot={shot}", url, tmp=tmp_path)
+    data = shot.read_bytes()
+    assert data[:8] == b"\x89PNG\r\n\x1a\n"
+    width, height = struct.unpack(">II", data[16:24])
+    assert (width, height) == (1100, 2400)
+    assert len(data) > 50_000  # text, tables and charts; a blank page compresses to a few kB
+
+
+def test_report_is_self_contained(tmp_path):
+    html, _ = _report("industrial_shed", tmp_path / "out")
+    text = html.read_text(encoding="utf-8")
+    # Nothing to fetch: no scripts, no external style sheets, images or fonts.
+    assert "<script" not in text
+    assert not re.search(r"""(src|href)\s*=\s*["']?(https?:)?//""", text)
+    assert text.count("<svg") >= 2
+
+
+def test_explain_matches_the_results_csv(tmp_path):
+    _, seg = _report("industrial_shed", tmp_path / "out")
+    row = _chosen_segment("industrial_shed", seg)
+    result = CliRunner().invoke(
+        main,
+        ["explain", str(sample_path("industrial_shed")), row["segment"], row["combination"]],
+    )
+    assert result.exit_code == 0, result.output
+    text = result.output
+    # Each number as explain prints it, against the CSV (4 decimals) within explain's rounding.
+    assert _number(text, r"L = ([\d.]+) m") == pytest.approx(row["Lu [m]"], abs=6e-4)
+    assert _number(text, r"end moment = ([-+\d.]+)") == pytest.approx(row["κ"], abs=6e-4)
+    assert _number(text, r"factor used = ([\d.]+)") == pytest.approx(row["factor used"], abs=6e-4)
+    assert _number(text, r"Mcr = ([\d.]+) [>≤]") == pytest.approx(row["Mcr [kN·m]"], abs=0.06)
+    assert _number(text, r"Mr = ([\d.]+) kN·m") == pytest.approx(row["Mr [kN·m]"], abs=0.06)
+    assert _number(text, r"utilization = [\d.]+ / [\d.]+ = ([\d.]+)") == pytest.approx(
+        row["utilization"], abs=6e-4
+    )
+    assert "competent engineer" in text
+
+
+def _number(text: str, pattern: str, **kw: bool) -> float | str:
+    """The first match of ``pattern``'s group in ``text`` (a float unless ``text=True``)."""
+    found = re.search(pattern, text)
+    assert found, pattern
+    return found.group(1) if kw.get("text") else float(found.group(1))
