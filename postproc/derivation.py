@@ -178,7 +178,7 @@ def _gradient_step(row: pd.Series, seg: pd.Series) -> Step:
             if kappa == 0
             else ("double curvature" if kappa > 0 else "single curvature")
         )
-        lines.append(f"κ = smaller / larger end moment = {kappa:+.3f} ({curvature} curvature)")
+        lines.append(f"κ = smaller / larger end moment = {kappa:+.3f} ({curvature})")
         lines.append(
             f"end-moment ω2 = 1.75 + 1.05κ + 0.3κ² = {row['omega2_formula']:.3f} "
             f"(≤ 2.5) [SANS 10162-1:2011, cl. 13.6(a)]"

@@ -104,9 +104,12 @@ def moment_diagram(
                 f'class="brace-bottom"><title>{escape(mk.label)}: bottom flange braced</title>'
                 "</path>"
             )
-    for ls, lm, text in labels:
+    for i, (ls, lm, text) in enumerate(labels):
         x, y = float(fx(ls)), float(fy(lm))
-        dy = -8 if lm >= 0 else 16
+        # End labels outside the curve; later labels (the inside peak) on the other side, so
+        # that a peak close to an end does not print over the end's label.
+        outside = lm >= 0
+        dy = (-8 if outside else 16) if i < 2 else (16 if outside else -8)
         text = text.replace("-", "−")
         parts.append(f'<circle cx="{x:.1f}" cy="{y:.1f}" r="3" class="dot"/>')
         parts.append(
