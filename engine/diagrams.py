@@ -24,6 +24,26 @@ from readers.model import Model
 
 
 @dataclass(frozen=True)
+class Stations:
+    """Every force station placed along its member, sorted by (combination, element row, s).
+
+    Plain arrays, one entry per station (a table of millions of rows is not worth a DataFrame's
+    copy here).
+
+    Attributes:
+        combination: load combination code.
+        element: row in ``Members.elements`` (member order).
+        s: distance from the member's start [mm].
+        M: moment [N·mm], positive when it compresses the top flange.
+    """
+
+    combination: np.ndarray
+    element: np.ndarray
+    s: np.ndarray
+    M: np.ndarray
+
+
+@dataclass(frozen=True)
 class SegmentDiagrams:
     """Diagrams of every (segment, combination) pair that has forces.
 
@@ -46,16 +66,11 @@ class SegmentDiagrams:
     m: np.ndarray
     offsets: np.ndarray
     combinations: list[str]
-    stations: pd.DataFrame
+    stations: Stations
 
 
-def member_stations(model: Model, members: Members) -> pd.DataFrame:
-    """Return every force row placed along its member, sorted for segment runs.
-
-    Columns: ``combination`` (code), ``element`` (row in ``Members.elements``), ``s`` [mm from
-    the member's start], ``M`` [N·mm]. Elements in no member (none today) and rows of elements
-    without a member are dropped.
-    """
+def member_stations(model: Model, members: Members) -> Stations:
+    """Return every force row placed along its member, sorted for segment runs."""
     f = model.forces
     el = members.elements
     # Element code (row of model.elements) -> row of members.elements (member order).
@@ -72,13 +87,11 @@ def member_stations(model: Model, members: Members) -> pd.DataFrame:
     # Within one element, stations sorted by s; at a shared node the earlier element comes first.
     key = ccode * (len(el) + 1) + erow
     order = np.lexsort((s, key))
-    return pd.DataFrame(
-        {
-            "combination": ccode[order],
-            "element": erow[order],
-            "s": s[order],
-            "M": f["M"].to_numpy()[order],
-        }
+    return Stations(
+        combination=ccode[order],
+        element=erow[order],
+        s=s[order],
+        M=f["M"].to_numpy()[order],
     )
 
 
@@ -90,10 +103,10 @@ def segment_diagrams(model: Model, members: Members, segments: Segments) -> Segm
     combos = [str(c) for c in model.forces["combination"].cat.categories]
     # Stations are sorted by (combination, member order); segment numbers grow along a member
     # within each flange set, so each set's runs are already contiguous: no sort is needed.
-    combo_st = st["combination"].to_numpy()
+    combo_st = st.combination
     seg_parts, row_parts = [], []
     for column in ("first", "second"):
-        seg = segments.element_segments[column].to_numpy()[st["element"].to_numpy()]
+        seg = segments.element_segments[column].to_numpy()[st.element]
         rows = np.flatnonzero(seg >= 0)
         seg_parts.append(seg[rows])
         row_parts.append(rows)
@@ -110,10 +123,8 @@ def segment_diagrams(model: Model, members: Members, segments: Segments) -> Segm
     flange = table["flange"].to_numpy()
     sign = np.where(flange == "bottom", -1.0, 1.0)
     seg_of_run = seg_all[starts]
-    m = st["M"].to_numpy()[row_all] * np.repeat(sign[seg_of_run], np.diff(offsets))
-    x = st["s"].to_numpy()[row_all] - np.repeat(
-        table["s_start"].to_numpy()[seg_of_run], np.diff(offsets)
-    )
+    m = st.M[row_all] * np.repeat(sign[seg_of_run], np.diff(offsets))
+    x = st.s[row_all] - np.repeat(table["s_start"].to_numpy()[seg_of_run], np.diff(offsets))
     either = flange[seg_of_run] == "either"
     peak_pos = np.maximum.reduceat(m, starts) if len(m) else np.zeros(0)
     peak_abs = np.maximum.reduceat(np.abs(m), starts) if len(m) else np.zeros(0)
@@ -132,7 +143,7 @@ def segment_diagrams(model: Model, members: Members, segments: Segments) -> Segm
 def station_key(diagrams: SegmentDiagrams, members: Members) -> np.ndarray:
     """The sort key of the stations, for repeated :func:`member_diagram` look-ups."""
     st = diagrams.stations
-    return st["combination"].to_numpy() * (len(members.elements) + 1) + st["element"].to_numpy()
+    return st.combination * (len(members.elements) + 1) + st.element
 
 
 def member_diagram(
@@ -157,4 +168,4 @@ def member_diagram(
         key = station_key(diagrams, members)
     lo = np.searchsorted(key, c * (len(el) + 1) + rows[0], side="left")
     hi = np.searchsorted(key, c * (len(el) + 1) + rows[-1], side="right")
-    return st["s"].to_numpy()[lo:hi], st["M"].to_numpy()[lo:hi]
+    return st.s[lo:hi], st.M[lo:hi]

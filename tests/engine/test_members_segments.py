@@ -241,10 +241,10 @@ def test_element_drawn_backwards_keeps_one_member_in_order_with_the_same_segment
     # M = 4 s (9 - s) = 56, 65, 72, 77, 80, 81, 80 kN·m.
     stations = member_stations(built.model, built.layout.members)
     e2_row = el.index.get_loc("E2")
-    e2 = stations[stations["element"] == e2_row]
-    np.testing.assert_allclose(e2["s"].to_numpy() / 1000.0, np.arange(2.0, 5.01, 0.5), atol=1e-9)
+    e2 = stations.element == e2_row
+    np.testing.assert_allclose(stations.s[e2] / 1000.0, np.arange(2.0, 5.01, 0.5), atol=1e-9)
     np.testing.assert_allclose(
-        e2["M"].to_numpy() / 1e6, [56, 65, 72, 77, 80, 81, 80], rtol=1e-9, atol=1e-9
+        stations.M[e2] / 1e6, [56, 65, 72, 77, 80, 81, 80], rtol=1e-9, atol=1e-9
     )
 
     # The top segment (2, 9): at x = 1.5 m from its start (s = 3.5) M = 4 * 3.5 * 5.5 = 77 kN·m;
