@@ -83,12 +83,8 @@ def build_members(model: Model, settings: MemberSettings) -> Members:
 
     _collinear_overlaps(model, settings, si, ei, unit)
     pairs = _continuations(model, settings, si, ei, unit)
-    chain_graph = nx.Graph()
-    chain_graph.add_nodes_from(range(n))
-    chain_graph.add_edges_from(pairs.tolist())
-    label = np.empty(n, dtype=np.int64)
-    for k, comp in enumerate(nx.connected_components(chain_graph)):
-        label[list(comp)] = k
+    chain_graph, label = _chains(n, pairs)
+    _check_user_ids(model, label)
     n_members = int(label.max()) + 1 if n else 0
 
     # Member direction: orient every element like the first element of its chain, add the
@@ -202,9 +198,7 @@ def _continuations(
                 for e in np.flatnonzero(used > 1)
             ]
         )
-    pairs = np.column_stack([end_elem[a], end_elem[b]])
-    _check_user_ids(model, pairs)
-    return pairs
+    return np.column_stack([end_elem[a], end_elem[b]])
 
 
 def _collinear_overlaps(
@@ -261,19 +255,23 @@ def _collinear_overlaps(
         )
 
 
-def _check_user_ids(model: Model, pairs: np.ndarray) -> None:
+def _chains(n: int, pairs: np.ndarray) -> tuple[nx.Graph, np.ndarray]:
+    """Return the graph of continuing elements and each element's chain (member) number."""
+    graph = nx.Graph()
+    graph.add_nodes_from(range(n))
+    graph.add_edges_from(pairs.tolist())
+    label = np.empty(n, dtype=np.int64)
+    for k, comp in enumerate(nx.connected_components(graph)):
+        label[list(comp)] = k
+    return graph, label
+
+
+def _check_user_ids(model: Model, label: np.ndarray) -> None:
     """Elements that share a user member id must chain into one member."""
     user = model.elements["member"]
     if user.isna().all():
         return
-    n = len(user)
-    g = nx.Graph()
-    g.add_nodes_from(range(n))
-    g.add_edges_from(pairs.tolist())
-    comp = np.empty(n, dtype=np.int64)
-    for k, c in enumerate(nx.connected_components(g)):
-        comp[list(c)] = k
-    frame = pd.DataFrame({"user": user.to_numpy(), "comp": comp}).dropna()
+    frame = pd.DataFrame({"user": user.to_numpy(), "comp": label}).dropna()
     spread = frame.groupby("user")["comp"].nunique()
     bad = spread[spread > 1]
     if len(bad):

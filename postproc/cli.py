@@ -22,6 +22,7 @@ from postproc.members_view import members_text, segment_rows
 from postproc.report import build_report
 from postproc.summary import model_summary
 from readers import InputError, Model, load_model
+from readers.settings import GRADIENT_METHODS
 
 F = TypeVar("F", bound=Callable[..., Any])
 
@@ -49,6 +50,21 @@ def _input_errors_exit_2(func: F) -> F:
     return wrapper  # type: ignore[return-value]
 
 
+#: Options shared by several commands.
+model_argument = click.argument("model", type=click.Path(file_okay=False, path_type=Path))
+settings_option = click.option(
+    "--settings",
+    "settings_file",
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="Settings file (TOML) to use instead of the model folder's flangewise.toml.",
+)
+method_option = click.option(
+    "--method",
+    type=click.Choice(list(GRADIENT_METHODS)),
+    help="Design-basis gradient method (default: the settings file's, else end_moment).",
+)
+
+
 def sample_path(name: str) -> Path:
     """Return the folder of a bundled sample model."""
     return Path(str(files("sample_models").joinpath(name)))
@@ -61,13 +77,8 @@ def main() -> None:
 
 
 @main.command()
-@click.argument("model", type=click.Path(file_okay=False, path_type=Path))
-@click.option(
-    "--settings",
-    "settings_file",
-    type=click.Path(dir_okay=False, path_type=Path),
-    help="Settings file (TOML) to use instead of the model folder's flangewise.toml.",
-)
+@model_argument
+@settings_option
 @_input_errors_exit_2
 def summary(model: Path, settings_file: Path | None) -> None:
     """Load MODEL (a folder of CSV files), validate it and summarise what was read."""
@@ -77,13 +88,8 @@ def summary(model: Path, settings_file: Path | None) -> None:
 
 
 @main.command()
-@click.argument("model", type=click.Path(file_okay=False, path_type=Path))
-@click.option(
-    "--settings",
-    "settings_file",
-    type=click.Path(dir_okay=False, path_type=Path),
-    help="Settings file (TOML) to use instead of the model folder's flangewise.toml.",
-)
+@model_argument
+@settings_option
 @click.option(
     "--csv",
     "csv_file",
@@ -184,13 +190,8 @@ class _Null:
 
 
 @main.command()
-@click.argument("model", type=click.Path(file_okay=False, path_type=Path))
-@click.option(
-    "--settings",
-    "settings_file",
-    type=click.Path(dir_okay=False, path_type=Path),
-    help="Settings file (TOML) to use instead of the model folder's flangewise.toml.",
-)
+@model_argument
+@settings_option
 @click.option(
     "--out",
     type=click.Path(file_okay=False, path_type=Path),
@@ -202,11 +203,7 @@ class _Null:
 @click.option(
     "--combination", "combinations", multiple=True, help="Only this load combination (repeat)."
 )
-@click.option(
-    "--method",
-    type=click.Choice(["end_moment", "quarter_point", "cb"]),
-    help="Design-basis gradient method (default: the settings file's, else end_moment).",
-)
+@method_option
 @click.option(
     "--report",
     is_flag=True,
@@ -240,20 +237,11 @@ def check(
 
 
 @main.command()
-@click.argument("model", type=click.Path(file_okay=False, path_type=Path))
+@model_argument
 @click.argument("segment")
 @click.argument("combination")
-@click.option(
-    "--settings",
-    "settings_file",
-    type=click.Path(dir_okay=False, path_type=Path),
-    help="Settings file (TOML) to use instead of the model folder's flangewise.toml.",
-)
-@click.option(
-    "--method",
-    type=click.Choice(["end_moment", "quarter_point", "cb"]),
-    help="Design-basis gradient method (default: the settings file's, else end_moment).",
-)
+@settings_option
+@method_option
 @_input_errors_exit_2
 def explain(
     model: Path, segment: str, combination: str, settings_file: Path | None, method: str | None

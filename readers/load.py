@@ -91,6 +91,21 @@ def _match_ids(labels: pd.Index, ids: pd.Index) -> np.ndarray:
     return where
 
 
+def _unknown_ids(
+    df: pd.DataFrame,
+    column: str,
+    ids: pd.Index,
+    file: str,
+    their_name: str,
+    expected: str,
+    problems: ProblemList,
+) -> None:
+    """Record every non-empty cell of ``column`` that is not one of ``ids``."""
+    unknown = (df[column].notna() & ~_known(df[column], ids)).to_numpy()
+    rows = spreadsheet_rows(df.index[unknown])
+    problems.add_many(file, rows, their_name, df.loc[unknown, column], expected)
+
+
 def _known(values: pd.Series, ids: pd.Index) -> pd.Series:
     """Return, per value, whether it is one of ``ids`` (a hash look-up, not a scan)."""
     found = pd.Index(ids.to_numpy(dtype=object)).get_indexer(values.to_numpy(dtype=object)) >= 0
@@ -246,17 +261,15 @@ def _elements(
     keep = _unique_ids(df, "id", "elements", settings, problems)
     rows = spreadsheet_rows(df.index)
     for c in ("start", "end"):
-        unknown = (df[c].notna() & ~_known(df[c], nodes.index)).to_numpy()
-        problems.add_many(
-            file, rows[unknown], col(c), df.loc[unknown, c], "a node id of the nodes table"
-        )
-    unknown = (df["section"].notna() & ~_known(df["section"], sections.index)).to_numpy()
-    problems.add_many(
+        _unknown_ids(df, c, nodes.index, file, col(c), "a node id of the nodes table", problems)
+    _unknown_ids(
+        df,
+        "section",
+        sections.index,
         file,
-        rows[unknown],
         col("section"),
-        df.loc[unknown, "section"],
         "a section name of the sections table",
+        problems,
     )
     start = nodes.reindex(df["start"].to_numpy())[["x", "y", "z"]].to_numpy()
     end = nodes.reindex(df["end"].to_numpy())[["x", "y", "z"]].to_numpy()
@@ -294,9 +307,8 @@ def _braces(
     for c in ("node", "flange"):
         required_text(df, c, file, col(c), problems)
     rows = spreadsheet_rows(df.index)
-    unknown = (df["node"].notna() & ~_known(df["node"], nodes.index)).to_numpy()
-    problems.add_many(
-        file, rows[unknown], col("node"), df.loc[unknown, "node"], "a node id of the nodes table"
+    _unknown_ids(
+        df, "node", nodes.index, file, col("node"), "a node id of the nodes table", problems
     )
     words = {w: w for w in FLANGE_WORDS}
     for ours, extra in settings.flange_words.items():
@@ -320,9 +332,8 @@ def _supports(
     col = lambda ours: _col(settings, "supports", ours)  # noqa: E731
     required_text(df, "node", file, col("node"), problems)
     rows = spreadsheet_rows(df.index)
-    unknown = (df["node"].notna() & ~_known(df["node"], nodes.index)).to_numpy()
-    problems.add_many(
-        file, rows[unknown], col("node"), df.loc[unknown, "node"], "a node id of the nodes table"
+    _unknown_ids(
+        df, "node", nodes.index, file, col("node"), "a node id of the nodes table", problems
     )
     if "restrains" in df:
         text = df["restrains"].fillna("all").astype("str").str.lower()
