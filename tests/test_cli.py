@@ -119,3 +119,19 @@ def test_members_prints_members_and_segments_and_writes_a_csv(tmp_path):
         text = by_segment[seg]["flange compressed in"]
         got = set() if text.startswith("(none") else set(text.split(" | "))
         assert got == combos, f"{seg}: {text!r}"
+
+
+def test_readme_names_every_command_and_no_other():
+    """The README's command examples stay in step with the command line."""
+    readme = (Path(__file__).resolve().parents[1] / "README.md").read_text(encoding="utf-8")
+    # Commands as the README writes them in code blocks and `code spans`, not in prose.
+    code = "\n".join(
+        re.findall(r"```.*?```", readme, flags=re.S) + re.findall(r"`[^`\n]+`", readme)
+    )
+    named = set(re.findall(r"flangewise (\w+)", code))
+    assert named == set(main.commands), (named, set(main.commands))
+    for name, command in main.commands.items():
+        for param in command.params:
+            for opt in getattr(param, "opts", []):
+                if opt.startswith("--") and opt != "--help":
+                    assert opt in readme, f"{name} {opt} is not in the README"
