@@ -10,7 +10,9 @@ FLAGS: dict[str, str] = {
     "peak-inside": "a moment inside the segment exceeds the larger end moment: the end-moment "
     "formula does not apply there, ω2 = 1.0",
     "omega2-cap": "the design-basis factor reached its cap of 2.5",
-    "cantilever": "the segment reaches a free end: factor 1.0",
+    "cantilever": "the segment reaches a free end: factor 1.0, and L is the actual length; the "
+    "effective length of a cantilever depends on the restraint at its root and tip and may be "
+    "longer: verify",
     "class-4": "the section is class 4 in flexure: not checked by this tool",
     "sign-change": "the moment changes sign inside the segment (double curvature)",
     "few-stations": "fewer than 3 force stations inside the segment: the tool cannot see the "

@@ -26,6 +26,12 @@ from postproc.svg import Marker, moment_diagram, utilization_bars
 KNM = 1.0e6
 M = 1.0e3
 
+SCOPE = (
+    "Scope: lateral-torsional buckling in major-axis bending only. Not checked: axial force and "
+    "interaction, shear, class 4 sections, load applied above the shear centre, effective-length "
+    "factors for cantilevers, the braces themselves (see the README, Scope and limits)."
+)
+
 #: At most this many segment sections (governing first, then flagged); the rest are counted.
 MAX_SECTIONS = 200
 #: At most this many members in the utilization chart (the highest first).
@@ -105,6 +111,7 @@ def _header(result: CheckResult, folder: Path, settings_text: str) -> str:
         f"<p class='meta'>Design basis: {escape(METHOD_WORDS[s.gradient])}; E = {s.E:.0f} MPa, "
         f"G = {s.G:.0f} MPa, φ = {s.phi}</p>"
         f"<div class='caution'>{escape(CAUTION)}</div>"
+        f"<p class='meta'>{escape(SCOPE)}</p>"
     )
 
 
