@@ -106,19 +106,18 @@ def check_pairs(layout: Layout, props: pd.DataFrame, settings: CheckSettings) ->
     member = pd.Categorical.from_codes(
         seg_codes.cat.codes.to_numpy()[k], categories=seg_codes.cat.categories
     )
-    section = layout.members.table["section"].reindex(member.categories).to_numpy()[member.codes]
-    p = props.reindex(section)
-    cls = p["section_class"].to_numpy()
-    m_base = np.where(cls <= 2, p["Zx"].to_numpy(), p["Sx"].to_numpy()) * p["fy"].to_numpy()
-    mcr = resistance.m_cr(
-        factor,
-        length,
-        p["Iy"].to_numpy(),
-        p["J"].to_numpy(),
-        p["Cw"].to_numpy(),
-        settings.E,
-        settings.G,
-    )
+    section = pd.Categorical(layout.members.table["section"].reindex(member.categories).to_numpy())[
+        member.codes
+    ]
+    # Section properties per pair through the section codes: a gather, not a label look-up.
+    where = props.index.get_indexer(pd.Index(section.categories))[section.codes]
+
+    def prop(name: str) -> np.ndarray:
+        return props[name].to_numpy()[where]
+
+    cls = prop("section_class")
+    m_base = np.where(cls <= 2, prop("Zx"), prop("Sx")) * prop("fy")
+    mcr = resistance.m_cr(factor, length, prop("Iy"), prop("J"), prop("Cw"), settings.E, settings.G)
     mr = resistance.m_r(mcr, m_base, settings.phi)
     compressed = pairs["compressed"].to_numpy()
     class4 = cls >= 4
@@ -146,12 +145,15 @@ def check_pairs(layout: Layout, props: pd.DataFrame, settings: CheckSettings) ->
             "segment_row": k,
             "segment": pd.Categorical.from_codes(k, categories=seg.index),
             "member": member,
-            "flange": pd.Categorical(seg["flange"].to_numpy()[k], categories=list(FLANGES)),
+            "flange": pd.Categorical.from_codes(
+                pd.Categorical(seg["flange"].to_numpy(), categories=list(FLANGES)).codes[k],
+                categories=pd.Index(FLANGES),
+            ),
             "combination": pd.Categorical.from_codes(
                 pairs["combination"].to_numpy().astype(np.int32),
                 categories=pd.Index(diag.combinations),
             ),
-            "section": pd.Categorical(section),
+            "section": section,
             "length": length,
             "section_class": cls,
             "M_start": ends.m_start,
@@ -176,7 +178,8 @@ def check_pairs(layout: Layout, props: pd.DataFrame, settings: CheckSettings) ->
             "utilization": utilization,
             "status": status,
             "flags": flag_labels(flags),
-        }
+        },
+        copy=False,  # one block per column: no copy of a million-row table into 2D blocks
     )
     for name, flag in flags.items():
         out[f"flag_{name}"] = flag

@@ -43,8 +43,11 @@ def flag_labels(flags: dict[str, np.ndarray], sep: str = " ") -> pd.Categorical[
     mask = np.zeros(n, dtype=np.int64)
     for bit, name in enumerate(names):
         mask |= flags[name].astype(np.int64) << bit
-    uniques, codes = np.unique(mask, return_inverse=True)
+    # Masks are small integers: count them instead of sorting them.
+    present = np.flatnonzero(np.bincount(mask, minlength=1))
+    code_of = np.full(int(present[-1]) + 1 if len(present) else 1, -1, dtype=np.int32)
+    code_of[present] = np.arange(len(present), dtype=np.int32)
     labels = [
-        sep.join(name for bit, name in enumerate(names) if (int(u) >> bit) & 1) for u in uniques
+        sep.join(name for bit, name in enumerate(names) if (int(u) >> bit) & 1) for u in present
     ]
-    return pd.Categorical.from_codes(codes.astype(np.int32), categories=pd.Index(labels))
+    return pd.Categorical.from_codes(code_of[mask], categories=pd.Index(labels))

@@ -186,11 +186,9 @@ def moment_at(runs: Runs, fraction: float) -> np.ndarray:
     n = len(runs.length)
     if n == 0:
         return np.zeros(0)
-    span = float(runs.length.max()) * 2.0 + 1.0
     run = runs.run_of_station
-    key = run * span + runs.x
     at = runs.length * fraction
-    target = np.arange(n) * span + at
+    at_station = at[run]
     lo_idx, hi_idx = runs.starts, runs.offsets[1:] - 1
 
     def side(i_left: np.ndarray) -> np.ndarray:
@@ -203,8 +201,12 @@ def moment_at(runs: Runs, fraction: float) -> np.ndarray:
         w = np.clip(w, 0.0, 1.0)
         return np.abs(runs.m[i0] + w * (runs.m[i1] - runs.m[i0]))
 
-    after = side(np.searchsorted(key, target + END_TOLERANCE_MM, side="right") - 1)
-    before = side(np.searchsorted(key, target - END_TOLERANCE_MM, side="left") - 1)
+    # x is sorted within each run, so counting the stations before the point finds it: the same
+    # index a binary search would, in two linear passes.
+    upto = np.bincount(run, weights=runs.x <= at_station + END_TOLERANCE_MM, minlength=n)
+    below = np.bincount(run, weights=runs.x < at_station - END_TOLERANCE_MM, minlength=n)
+    after = side(lo_idx + upto.astype(np.int64) - 1)
+    before = side(lo_idx + below.astype(np.int64) - 1)
     return np.maximum(after, before)
 
 
