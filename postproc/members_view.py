@@ -65,7 +65,7 @@ def members_text(members: Members, segments: Segments, diagrams: SegmentDiagrams
             f"Member {name}  section {m['section']}  length {m['length'] / _M:.3f} m  {kind}"
         )
         lines.append(f"  elements in order: {' '.join(map(str, own.index))}")
-        for flange in ("top", "bottom"):
+        for flange in ("top",) if m["steep"] else ("top", "bottom"):
             braced = mst[mst[flange]]
             listed = ", ".join(
                 f"{n} ({s / _M:.3f} m, {by})"
@@ -73,7 +73,8 @@ def members_text(members: Members, segments: Segments, diagrams: SegmentDiagrams
                     braced["node"], braced["s"], braced[f"{flange}_by"], strict=True
                 )
             )
-            lines.append(f"  {flange} flange braced at: {listed or 'nowhere'}")
+            which = "both flanges" if m["steep"] else f"{flange} flange"
+            lines.append(f"  {which} braced at: {listed or 'nowhere'}")
         free = mst[mst["free"]]
         if len(free):
             lines.append(f"  free end(s): {', '.join(free['node'])}")
