@@ -187,7 +187,7 @@ def numeric(
     *,
     required: bool = True,
 ) -> pd.Series:
-    """Return ``df[column]`` as float64, recording every empty or non-numeric cell.
+    """Return ``df[column]`` as float64, noting every empty or non-numeric cell.
 
     Args:
         df: the table (index = record number).
