@@ -112,8 +112,10 @@ def moment_diagram(
         dy = (-8 if outside else 16) if i < 2 else (16 if outside else -8)
         text = text.replace("-", "−")
         parts.append(f'<circle cx="{x:.1f}" cy="{y:.1f}" r="3" class="dot"/>')
+        # Keep labels inside the picture near its left and right edges.
+        anchor = "end" if x > x1 - 60 else ("start" if x < x0 + 60 else "middle")
         parts.append(
-            f'<text x="{x:.1f}" y="{y + dy:.1f}" class="lab" text-anchor="middle">'
+            f'<text x="{x:.1f}" y="{y + dy:.1f}" class="lab" text-anchor="{anchor}">'
             f"{escape(text)}</text>"
         )
     parts.append("</svg>")
