@@ -61,6 +61,8 @@ def segment_table(result: CheckResult) -> pd.DataFrame:
             "M start [kN·m]": r["M_start"].to_numpy() / KNM + 0.0,
             "M end [kN·m]": r["M_end"].to_numpy() / KNM + 0.0,
             "|M| max [kN·m]": r["M_max"].to_numpy() / KNM,
+            "|M| larger end [kN·m]": np.maximum(np.abs(r["M_start"]), np.abs(r["M_end"])).to_numpy()
+            / KNM,
             "|M| inside peak [kN·m]": r["inside_peak"].to_numpy() / KNM,
             "inside peak at [m]": r["inside_peak_at"].to_numpy() / M,
             "|M| L/4 [kN·m]": r["M_a"].to_numpy() / KNM,
