@@ -133,6 +133,10 @@ def summary(result: CheckResult, segments: pd.DataFrame, model_folder: Path) -> 
             "Mr [kN·m]": round(float(w["Mr [kN·m]"]), 3),
             "demand [kN·m]": round(float(w["demand [kN·m]"]), 3),
         }
+    # Members whose elements have no force rows at all: say so rather than skip them silently.
+    all_members = result.layout.members.table.index.astype(str)
+    with_forces = set(result.results["member"].astype(str))
+    no_forces = [m for m in all_members if m not in with_forces]
     flag_counts = {name: int(result.results[f"flag_{name}"].sum()) for name in FLAGS}
     return {
         "tool": f"flangewise {version('flangewise')}",
@@ -148,6 +152,7 @@ def summary(result: CheckResult, segments: pd.DataFrame, model_folder: Path) -> 
         "pairs not critical": int(_status_in(segments, "not critical").sum()),
         "pairs not checked (class 4)": int(_status_in(segments, "not checked").sum()),
         "pairs over 1.0": int(_status_in(segments, "over").sum()),
+        "members without forces (not checked)": no_forces,
         "worst": worst,
         "flags": flag_counts,
         "flag meanings": FLAGS,
@@ -173,6 +178,12 @@ def summary_text(info: dict[str, Any]) -> str:
             f"(demand {w['demand [kN·m]']:.1f} kN·m, Mr {w['Mr [kN·m]']:.1f} kN·m)"
         )
     lines.append(f"Over 1.0       : {info['pairs over 1.0']}")
+    missing = info["members without forces (not checked)"]
+    if missing:
+        shown = ", ".join(missing[:10]) + (
+            f" and {len(missing) - 10} more" if len(missing) > 10 else ""
+        )
+        lines.append(f"NO FORCES      : {len(missing)} member(s) not checked: {shown}")
     if info["pairs not checked (class 4)"]:
         lines.append(f"NOT CHECKED    : {info['pairs not checked (class 4)']} (class 4 sections)")
     flagged = {k: v for k, v in info["flags"].items() if v}

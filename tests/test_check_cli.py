@@ -116,3 +116,17 @@ def test_failure_while_writing_leaves_earlier_results_intact(tmp_path, monkeypat
     after = {name: (out / name).read_bytes() for name in FILES}
     assert after == before  # the whole earlier set, byte for byte
     assert sorted(p.name for p in out.iterdir()) == sorted(FILES)
+
+
+def test_members_without_forces_are_named_not_skipped(tmp_path):
+    folder = _copy(tmp_path)
+    # A bracing strut with no force rows: a second member, not checked, and said so.
+    with (folder / "nodes.csv").open("a", encoding="utf-8") as fh:
+        fh.write("N10,6.0,3.0,4.5\n")
+    with (folder / "elements.csv").open("a", encoding="utf-8") as fh:
+        fh.write("T1,N5,N10,W410x60\n")
+    result = CliRunner().invoke(main, ["check", str(folder), "--out", str(tmp_path / "r")])
+    assert result.exit_code == 0, result.output
+    assert "NO FORCES      : 1 member(s) not checked" in result.output
+    info = json.loads((tmp_path / "r" / "summary.json").read_text(encoding="utf-8"))
+    assert len(info["members without forces (not checked)"]) == 1
