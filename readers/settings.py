@@ -181,6 +181,7 @@ class Settings:
         return self.folder / self.files[table]
 
 
+#: Settings tables read for the engine (chaining, bracing, check constants).
 _ENGINE_SECTIONS = ("members", "check")
 _FLOAT = (int, float)
 _CHOICES: dict[tuple[str, str], tuple[str, ...]] = {
