@@ -312,15 +312,17 @@ def test_skew_within_the_tolerance_continues_the_member_and_beyond_it_ends_it(
 # ---------------------------------------------------------------------------------------------
 
 
-def test_section_change_in_a_straight_line_splits_the_member(frame):
-    # Beam at z = 3 along x: N1 (0) - N2 (4) - N3 (8); E1 in S1, E2 in S2. Supports N1, N3.
+def _beam_split_at_n2(frame, e1: dict, e2: dict):
+    """Beam at z = 3 along x: N1 (0) - N2 (4) - N3 (8), supports N1 and N3, split at N2.
+
+    Whatever splits it, the result is two members of 4 m that both end at N2, connected to each
+    other, so both flanges are braced there: one segment per flange, 0 .. 4 m, in each.
+    """
     f = frame()
     f.node("N1", 0, 0, 3).node("N2", 4, 0, 3).node("N3", 8, 0, 3)
-    f.element("E1", "N1", "N2", section="S1").element("E2", "N2", "N3", section="S2")
+    f.element("E1", "N1", "N2", **e1).element("E2", "N2", "N3", **e2)
     f.support("N1").support("N3")
     built = f.build()
-    # In line but of different sections: two members of 4 m; both end at N2, connected to each
-    # other, so both flanges are braced there.
     whole = ((0.0, 4.0),)
     names = check_layout(
         built,
@@ -329,6 +331,12 @@ def test_section_change_in_a_straight_line_splits_the_member(frame):
             Expect(("E2",), 4.0, top=whole, bottom=whole),
         ],
     )
+    return built, names
+
+
+def test_section_change_in_a_straight_line_splits_the_member(frame):
+    # E1 in S1, E2 in S2: in line but of different sections.
+    built, names = _beam_split_at_n2(frame, {"section": "S1"}, {"section": "S2"})
     table = built.layout.members.table
     assert table.loc[names[("E1",)], "section"] == "S1"
     assert table.loc[names[("E2",)], "section"] == "S2"
@@ -599,22 +607,8 @@ def test_consistent_user_member_ids_name_the_member(frame):
 
 
 def test_a_change_of_user_member_id_ends_the_member(frame):
-    # Beam at z = 3 along x: N1 (0) - N2 (4) - N3 (8); E1 is member "A", E2 member "B".
-    f = frame()
-    f.node("N1", 0, 0, 3).node("N2", 4, 0, 3).node("N3", 8, 0, 3)
-    f.element("E1", "N1", "N2", member="A").element("E2", "N2", "N3", member="B")
-    f.support("N1").support("N3")
-    built = f.build()
-    # In line and of one section, but the member column changes at N2: two members of 4 m, each
-    # braced at N2 (connected member ends).
-    whole = ((0.0, 4.0),)
-    names = check_layout(
-        built,
-        [
-            Expect(("E1",), 4.0, top=whole, bottom=whole),
-            Expect(("E2",), 4.0, top=whole, bottom=whole),
-        ],
-    )
+    # E1 is member "A", E2 member "B": in line and of one section, but the member column changes.
+    _, names = _beam_split_at_n2(frame, {"member": "A"}, {"member": "B"})
     assert names == {("E1",): "A", ("E2",): "B"}
 
 
