@@ -11,14 +11,13 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
-
-from engine import gradient, resistance
-from engine.flags import flag_labels
-from engine.layout import Layout, build_layout
-from engine.sections import section_class, section_properties
-from engine.segments import FLANGES
-from readers.model import Model
-from readers.settings import CheckSettings
+from flangewise.engine import gradient, resistance
+from flangewise.engine.flags import flag_labels
+from flangewise.engine.layout import Layout, build_layout
+from flangewise.engine.sections import section_class, section_properties
+from flangewise.engine.segments import FLANGES
+from flangewise.readers.model import Model
+from flangewise.readers.settings import CheckSettings
 
 #: Result states, in code order.
 STATUS = ["ok", "over", "not critical", "not checked"]

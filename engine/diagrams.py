@@ -17,10 +17,9 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
-
-from engine.members import Members
-from engine.segments import Segments
-from readers.model import Model
+from flangewise.engine.members import Members
+from flangewise.engine.segments import Segments
+from flangewise.readers.model import Model
 
 
 @dataclass(frozen=True)

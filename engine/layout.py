@@ -4,10 +4,10 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from engine.diagrams import SegmentDiagrams, segment_diagrams
-from engine.members import Members, build_members
-from engine.segments import Segments, build_segments
-from readers.model import Model
+from flangewise.engine.diagrams import SegmentDiagrams, segment_diagrams
+from flangewise.engine.members import Members, build_members
+from flangewise.engine.segments import Segments, build_segments
+from flangewise.readers.model import Model
 
 
 @dataclass(frozen=True)

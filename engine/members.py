@@ -16,11 +16,10 @@ from dataclasses import dataclass
 import networkx as nx
 import numpy as np
 import pandas as pd
+from flangewise.readers.errors import InputError, Problem
+from flangewise.readers.model import COINCIDENT_MM, Model, drawn_backwards
+from flangewise.readers.settings import MemberSettings
 from scipy.spatial import cKDTree
-
-from readers.errors import InputError, Problem
-from readers.model import COINCIDENT_MM, Model, drawn_backwards
-from readers.settings import MemberSettings
 
 #: Members steeper than this from horizontal [degrees] have no top or bottom flange (common
 #: practice: a column's flanges face sideways, "top" means nothing there).

@@ -20,11 +20,10 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
-
-from engine.flags import join_words
-from engine.members import Members
-from readers.model import Model
-from readers.settings import MemberSettings
+from flangewise.engine.flags import join_words
+from flangewise.engine.members import Members
+from flangewise.readers.model import Model
+from flangewise.readers.settings import MemberSettings
 
 #: Flanges a segment can be checked for.
 FLANGES = ("top", "bottom", "either")

@@ -11,18 +11,17 @@ from pathlib import Path
 from typing import Any, TypeVar
 
 import click
-
-from engine.check import check_model
-from engine.layout import build_layout
-from postproc import exports
-from postproc.derivation import derivation_text, find_pair
-from postproc.exports import CAUTION
-from postproc.files import write_atomic
-from postproc.members_view import members_text, segment_rows
-from postproc.report import build_report
-from postproc.summary import model_summary
-from readers import InputError, Model, load_model
-from readers.settings import GRADIENT_METHODS
+from flangewise.engine.check import check_model
+from flangewise.engine.layout import build_layout
+from flangewise.postproc import exports
+from flangewise.postproc.derivation import derivation_text, find_pair
+from flangewise.postproc.exports import CAUTION
+from flangewise.postproc.files import write_atomic
+from flangewise.postproc.members_view import members_text, segment_rows
+from flangewise.postproc.report import build_report
+from flangewise.postproc.summary import model_summary
+from flangewise.readers import InputError, Model, load_model
+from flangewise.readers.settings import GRADIENT_METHODS
 
 F = TypeVar("F", bound=Callable[..., Any])
 
@@ -67,7 +66,7 @@ method_option = click.option(
 
 def sample_path(name: str) -> Path:
     """Return the folder of a bundled sample model."""
-    return Path(str(files("sample_models").joinpath(name)))
+    return Path(str(files("flangewise.sample_models").joinpath(name)))
 
 
 @click.group(context_settings={"help_option_names": ["-h", "--help"]})

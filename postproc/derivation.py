@@ -11,12 +11,11 @@ import math
 from dataclasses import dataclass, field
 
 import pandas as pd
-
-from engine.check import CheckResult
-from engine.flags import FLAGS
-from engine.gradient import INSIDE_TOLERANCE, MIN_INSIDE_STATIONS
-from engine.resistance import INELASTIC_SWITCH
-from engine.sections import FLANGE_LIMITS, WEB_LIMITS
+from flangewise.engine.check import CheckResult
+from flangewise.engine.flags import FLAGS
+from flangewise.engine.gradient import INSIDE_TOLERANCE, MIN_INSIDE_STATIONS
+from flangewise.engine.resistance import INELASTIC_SWITCH
+from flangewise.engine.sections import FLANGE_LIMITS, WEB_LIMITS
 
 KNM = 1.0e6
 M = 1.0e3

@@ -16,9 +16,8 @@ import numpy as np
 import pandas as pd
 import pyarrow as pa
 import pyarrow.csv as pacsv
-
-from engine.check import CheckResult
-from engine.flags import FLAGS
+from flangewise.engine.check import CheckResult
+from flangewise.engine.flags import FLAGS
 
 CAUTION = (
     "CAUTION: results are an aid to design, not a design. They must be verified by a competent "

@@ -4,10 +4,9 @@ from __future__ import annotations
 
 import numpy as np
 import pandas as pd
-
-from engine.diagrams import SegmentDiagrams
-from engine.members import Members
-from engine.segments import Segments
+from flangewise.engine.diagrams import SegmentDiagrams
+from flangewise.engine.members import Members
+from flangewise.engine.segments import Segments
 
 _M = 1000.0  # mm per m
 

@@ -15,13 +15,12 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
-
-from engine.check import CheckResult
-from engine.diagrams import member_diagram, station_key
-from engine.flags import FLAGS
-from postproc.derivation import derivation
-from postproc.exports import CAUTION, METHOD_WORDS
-from postproc.svg import Marker, moment_diagram, utilization_bars
+from flangewise.engine.check import CheckResult
+from flangewise.engine.diagrams import member_diagram, station_key
+from flangewise.engine.flags import FLAGS
+from flangewise.postproc.derivation import derivation
+from flangewise.postproc.exports import CAUTION, METHOD_WORDS
+from flangewise.postproc.svg import Marker, moment_diagram, utilization_bars
 
 KNM = 1.0e6
 M = 1.0e3

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from readers import Model
+from flangewise.readers import Model
 
 _KNM = 1.0e6  # N·mm per kN·m
 

@@ -4,9 +4,9 @@ Internal unit system (used everywhere past this package): length mm, force N, mo
 stress MPa (N/mm²). Every conversion happens once, here.
 """
 
-from readers.errors import InputError, Problem
-from readers.load import load_model
-from readers.model import Model
-from readers.settings import Settings, read_settings
+from flangewise.readers.errors import InputError, Problem
+from flangewise.readers.load import load_model
+from flangewise.readers.model import Model
+from flangewise.readers.settings import Settings, read_settings
 
 __all__ = ["InputError", "Model", "Problem", "Settings", "load_model", "read_settings"]

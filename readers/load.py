@@ -8,13 +8,12 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
+from flangewise.readers import units
+from flangewise.readers.errors import InputError, Problem, ProblemList
+from flangewise.readers.model import COINCIDENT_MM, POSITION_TOLERANCE, Model, drawn_backwards
+from flangewise.readers.settings import FLANGE_WORDS, TABLES, Settings, read_settings
+from flangewise.readers.tables import numeric, read_table, required_text, spreadsheet_rows
 from scipy.spatial import cKDTree
-
-from readers import units
-from readers.errors import InputError, Problem, ProblemList
-from readers.model import COINCIDENT_MM, POSITION_TOLERANCE, Model, drawn_backwards
-from readers.settings import FLANGE_WORDS, TABLES, Settings, read_settings
-from readers.tables import numeric, read_table, required_text, spreadsheet_rows
 
 #: Yield stresses outside this range [MPa] are almost always a units mistake.
 FY_RANGE_MPA = (150.0, 1000.0)

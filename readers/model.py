@@ -29,8 +29,7 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
-
-from readers.settings import Settings
+from flangewise.readers.settings import Settings
 
 #: Two nodes closer than this are the same point [mm] (common practice: well below any real
 #: connection offset, well above export rounding of coordinates in mm).

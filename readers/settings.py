@@ -13,8 +13,8 @@ from pathlib import Path
 from types import MappingProxyType
 from typing import Any, Literal
 
-from readers import units
-from readers.errors import InputError, Problem
+from flangewise.readers import units
+from flangewise.readers.errors import InputError, Problem
 
 #: The settings file looked for in a model folder when none is named.
 SETTINGS_NAME = "flangewise.toml"

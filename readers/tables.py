@@ -10,9 +10,8 @@ import numpy as np
 import pandas as pd
 import pyarrow as pa
 import pyarrow.compute as pc
-
-from readers.errors import ProblemList
-from readers.settings import COLUMNS, OPTIONAL_TABLES, Settings
+from flangewise.readers.errors import ProblemList
+from flangewise.readers.settings import COLUMNS, OPTIONAL_TABLES, Settings
 
 #: Columns that hold identifiers (read as text, compared as text).
 ID_COLUMNS: dict[str, tuple[str, ...]] = {

@@ -9,9 +9,8 @@ from pathlib import Path
 import pandas as pd
 import pytest
 from click.testing import CliRunner
-
-from postproc import exports
-from postproc.cli import main, sample_path
+from flangewise.postproc import exports
+from flangewise.postproc.cli import main, sample_path
 
 SAMPLE = sample_path("two_span_beam")
 

@@ -10,8 +10,7 @@ import inspect
 import re
 
 import pytest
-
-from engine import gradient, resistance, sections
+from flangewise.engine import gradient, resistance, sections
 
 CITATION = re.compile(
     r"^(SANS 10162-1:2011, (cl\. 13\.6\(a\)|Table 3)\.|CSA S16-14, cl\. 13\.6\(a\)\(ii\)\."

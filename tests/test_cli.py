@@ -10,10 +10,9 @@ from pathlib import Path
 
 import pytest
 from click.testing import CliRunner
+from flangewise.postproc.cli import main
 
-from postproc.cli import main
-
-SAMPLE = Path(str(files("sample_models").joinpath("two_span_beam")))
+SAMPLE = Path(str(files("flangewise.sample_models").joinpath("two_span_beam")))
 
 
 def test_demo_runs_and_prints_the_caution(tmp_path, monkeypatch):

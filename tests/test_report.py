@@ -16,8 +16,7 @@ from pathlib import Path
 import pandas as pd
 import pytest
 from click.testing import CliRunner
-
-from postproc.cli import main, sample_path
+from flangewise.postproc.cli import main, sample_path
 
 CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
 FLAGS = [

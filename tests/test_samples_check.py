@@ -6,8 +6,7 @@ from __future__ import annotations
 import pandas as pd
 import pytest
 from click.testing import CliRunner
-
-from postproc.cli import main, sample_path
+from flangewise.postproc.cli import main, sample_path
 
 
 def _check(name: str, tmp_path_factory) -> dict[str, pd.DataFrame]:

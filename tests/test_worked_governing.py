@@ -17,8 +17,7 @@ import math
 import pandas as pd
 import pytest
 from click.testing import CliRunner
-
-from postproc.cli import main, sample_path
+from flangewise.postproc.cli import main, sample_path
 
 SAMPLE = sample_path("industrial_shed")
 COMBO = "ULS1 1.2D+1.6L"

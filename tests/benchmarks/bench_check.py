@@ -29,9 +29,9 @@ CHILD = r"""
 import json, resource, sys, time
 from pathlib import Path
 import pandas as pd
-from engine.check import check_model
-from postproc import exports
-from readers import load_model
+from flangewise.engine.check import check_model
+from flangewise.postproc import exports
+from flangewise.readers import load_model
 folder, what = Path(sys.argv[1]), sys.argv[2]
 # Imports are done before the clock starts: both sides pay them once per process, and they would
 # otherwise swamp the per-row figures of the small sizes.

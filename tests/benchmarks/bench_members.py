@@ -16,11 +16,10 @@ from pathlib import Path
 import networkx as nx
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
+from flangewise.engine.members import build_members
+from flangewise.engine.segments import build_segments
+from flangewise.readers import load_model
 from synthetic import write_model
-
-from engine.members import build_members
-from engine.segments import build_segments
-from readers import load_model
 
 
 def main() -> None:

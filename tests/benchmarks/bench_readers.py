@@ -16,9 +16,8 @@ from pathlib import Path
 import pandas as pd
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
+from flangewise.readers import load_model
 from synthetic import write_model
-
-from readers import load_model
 
 
 def main() -> None:

@@ -21,9 +21,8 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
-
-import readers
-from engine.layout import Layout, build_layout
+from flangewise import readers
+from flangewise.engine.layout import Layout, build_layout
 
 #: Invented I-sections: name -> (d, b, tf, tw, r [mm], fy [MPa]).
 SECTIONS: dict[str, tuple[float, float, float, float, float, float]] = {

@@ -21,8 +21,7 @@ from collections.abc import Callable
 
 import numpy as np
 import pytest
-
-from engine import gradient
+from flangewise.engine import gradient
 
 #: The properties are exact in real arithmetic; the code's float operations (interpolation at
 #: reversed positions L − x, products of scaled moments) can differ in the last few bits only.

@@ -19,9 +19,8 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
-
-from engine.diagrams import member_stations
-from readers import InputError
+from flangewise.engine.diagrams import member_stations
+from flangewise.readers import InputError
 
 FLANGES = ("top", "bottom", "either")
 

@@ -13,9 +13,8 @@ from collections.abc import Callable
 from pathlib import Path
 
 import pytest
-
-import readers
-from readers import InputError, Problem
+from flangewise import readers
+from flangewise.readers import InputError, Problem
 
 #: The canonical tables, header first; the list index of a row is its spreadsheet row minus 1.
 BASE_TABLES: dict[str, list[list[str]]] = {

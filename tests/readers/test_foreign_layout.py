@@ -12,8 +12,7 @@ import math
 
 import pandas as pd
 import pandas.testing as pdt
-
-import readers
+from flangewise import readers
 
 IN_MM = 25.4  # NIST SP 811 (2008), App. B: 1 in = 25.4 mm, exact
 FT_MM = 304.8  # NIST SP 811 (2008), App. B: 1 ft = 0.3048 m, exact

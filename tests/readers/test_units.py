@@ -8,8 +8,7 @@ same guide.
 from __future__ import annotations
 
 import pytest
-
-from readers.units import factor, known_units
+from flangewise.readers.units import factor, known_units
 
 #: Each expected value is one exact factor or the product of two, so it and the code's factor can
 #: differ only by a couple of float roundings (about 1e-16 each).

@@ -7,8 +7,7 @@ a spreadsheet shows them: the header is row 1, the first data row is row 2.
 from __future__ import annotations
 
 import pytest
-
-import readers
+from flangewise import readers
 
 
 def test_base_model_loads(model):

@@ -35,10 +35,9 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
-
-from readers import load_model
-from readers.model import Model
-from readers.units import factor
+from flangewise.readers import load_model
+from flangewise.readers.model import Model
+from flangewise.readers.units import factor
 
 SHED = "industrial_shed"
 PLATFORM = "plant_platform"
@@ -100,7 +99,7 @@ COLUMN = "PC260"
 
 
 def folder(sample: str) -> Path:
-    return Path(str(files("sample_models").joinpath(sample)))
+    return Path(str(files("flangewise.sample_models").joinpath(sample)))
 
 
 @functools.cache

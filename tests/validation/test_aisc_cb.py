@@ -25,8 +25,7 @@ import math
 
 import numpy as np
 import pytest
-
-from engine import gradient
+from flangewise.engine import gradient
 
 #: Table 3-1 prints Cb to two decimals, so Eq. F1-1's exact value may lie up to half a unit of
 #: the last place (0.005) from the printed one; the hand-worked factors below are read to the

@@ -23,8 +23,7 @@ import math
 
 import numpy as np
 import pytest
-
-from engine import resistance
+from flangewise.engine import resistance
 
 #: Example 9.7 reaches Mcr through rts, h0, J and Sx, and we through Iy, J and Cw, all printed
 #: to three significant figures. Worst cases: our route, Mcr ∝ √Iy·√(GJ + π²E·Cw/L²), moves by

@@ -22,8 +22,7 @@ import math
 
 import numpy as np
 import pytest
-
-from engine import gradient
+from flangewise.engine import gradient
 
 #: Every expected value here is an exact decimal (or an exact product of decimals) worked by hand,
 #: so the code's value can differ from it only by float rounding in the polynomial and in the

@@ -17,8 +17,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-
-from engine import resistance
+from flangewise.engine import resistance
 
 #: The hand arithmetic below is carried to seven significant figures; a relative 1e-5 allows for
 #: its rounding and for nothing a wrong branch or coefficient would produce.

@@ -25,8 +25,7 @@ from typing import NamedTuple
 import numpy as np
 import pandas as pd
 import pytest
-
-from engine.sections import section_class, section_properties
+from flangewise.engine.sections import section_class, section_properties
 
 #: mm per inch, exact (NIST SP 811 (2008), App. B).
 IN = 25.4
