@@ -1,52 +1,181 @@
-"""The ``flangewise`` command line: a thin layer that parses, calls readers/engine, and formats."""
+"""The ``flangewise`` command line: a thin layer that parses, calls readers/engine, and formats.
+
+Every command ends with one of a few exit statuses, each with one meaning (see :data:`EXIT_HELP`):
+an internal error never ends with a status that a script could read as a result.
+"""
 
 from __future__ import annotations
 
 import dataclasses
+import os
+import shlex
 import sys
-from collections.abc import Callable
-from functools import wraps
+import traceback
+from collections.abc import Iterator, Sequence
+from contextlib import contextmanager
 from importlib.resources import files
 from pathlib import Path
-from typing import Any, TypeVar
+from typing import Any, NoReturn
 
 import click
-from flangewise.engine.check import check_model
+from flangewise.engine.check import CheckResult, check_model
 from flangewise.engine.layout import build_layout
 from flangewise.postproc import exports
 from flangewise.postproc.derivation import derivation_text, find_pair
 from flangewise.postproc.exports import CAUTION
 from flangewise.postproc.files import write_atomic
 from flangewise.postproc.members_view import members_text, segment_rows
+from flangewise.postproc.names import UnknownName, unknown_names_message
+from flangewise.postproc.provenance import finish_hashing, provenance, start_hashing
 from flangewise.postproc.report import build_report
 from flangewise.postproc.summary import model_summary
-from flangewise.readers import InputError, Model, load_model
+from flangewise.readers import InputError, Model, load_model, read_settings
 from flangewise.readers.settings import GRADIENT_METHODS
-
-F = TypeVar("F", bound=Callable[..., Any])
 
 #: The sample model the ``demo`` command runs on, and where it writes.
 DEMO_SAMPLE = "industrial_shed"
 DEMO_OUT = "flangewise-demo"
 
+#: Exit statuses. 2 is also click's own for a command line it cannot parse.
+EXIT_NOT_SHOWN_TO_PASS = 1
+EXIT_INPUT = 2
+EXIT_NOT_WRITTEN = 3
+EXIT_INTERNAL = 4
+EXIT_INTERRUPTED = 130  # 128 + SIGINT, as shells report an interrupted program
 
-def _input_errors_exit_2(func: F) -> F:
-    """Turn an :class:`InputError` into its message on stderr and exit status 2, no traceback."""
+#: The environment variable that asks for the traceback of an internal error, like ``--debug``.
+DEBUG_VARIABLE = "FLANGEWISE_DEBUG"
 
-    @wraps(func)
-    def wrapper(*args: Any, **kwargs: Any) -> Any:
+#: Where click keeps the command line's arguments for the run's record.
+_ARGUMENTS = "flangewise.arguments"
+
+EXIT_HELP = """\b
+Exit status:
+  0  done; for check and demo: every pair is shown to pass
+  1  check, demo: NOT SHOWN TO PASS: a checked pair is over 1.0, a pair
+     with its flange in compression is not checked (class 4), or nothing
+     at all was checked (--exit-zero makes this 0)
+  2  input that cannot be used, or a command line that cannot be parsed
+  3  the results could not be written (earlier results are left as they
+     were)
+  4  an internal error of flangewise: not a result; please report it with
+     the command line and the input files (--debug or FLANGEWISE_DEBUG=1
+     shows the traceback)
+  130  interrupted (Ctrl-C)
+"""
+
+CHECK_EXIT_HELP = """\b
+Exit status:
+  0  every pair is shown to pass
+  1  NOT SHOWN TO PASS: a checked pair is over 1.0, a pair with its flange
+     in compression is not checked (class 4), or nothing at all was
+     checked (unless --exit-zero)
+  2  input that cannot be used (or a command line that cannot be parsed)
+  3  the results could not be written (earlier results are left as they
+     were)
+  4  an internal error of flangewise: not a result; please report it with
+     the command line and the input files (--debug or FLANGEWISE_DEBUG=1
+     shows the traceback)
+  130  interrupted (Ctrl-C)
+"""
+
+
+class ResultsNotWritten(Exception):
+    """Writing a result file failed; the earlier file or set is unchanged.
+
+    Attributes:
+        error: the operating system's error.
+    """
+
+    def __init__(self, error: OSError) -> None:
+        super().__init__(str(error))
+        self.error = error
+
+
+@contextmanager
+def _writing() -> Iterator[None]:
+    """Mark a block as the writing of results: an :class:`OSError` there means exit status 3."""
+    try:
+        yield
+    except OSError as exc:
+        raise ResultsNotWritten(exc) from exc
+
+
+def _debug_asked(ctx: click.Context) -> bool:
+    """Whether ``--debug`` was given or the environment variable asks for it."""
+    value = os.environ.get(DEBUG_VARIABLE, "").strip().lower()
+    return bool(ctx.params.get("debug")) or value in {"1", "true", "yes", "on"}
+
+
+def _stop(status: int, *lines: str) -> NoReturn:
+    for line in lines:
+        click.echo(line, err=True)
+    sys.exit(status)
+
+
+class _Commands(click.Group):
+    """The command group: one place that turns every way a command can end into its status."""
+
+    def make_context(
+        self,
+        info_name: str | None,
+        args: list[str],
+        parent: click.Context | None = None,
+        **extra: Any,
+    ) -> click.Context:
+        """Keep the arguments as given (parsing consumes them), for the run's record."""
+        given = list(args)
+        ctx = super().make_context(info_name, list(args), parent=parent, **extra)
+        ctx.meta[_ARGUMENTS] = given
+        return ctx
+
+    def invoke(self, ctx: click.Context) -> Any:
+        """Run the command; map each kind of ending to its exit status and a short message."""
         try:
-            return func(*args, **kwargs)
+            return super().invoke(ctx)
+        except (click.exceptions.ClickException, click.exceptions.Exit, click.exceptions.Abort):
+            raise  # click's own: usage errors keep its status 2
         except InputError as exc:
-            click.echo("The input cannot be used:", err=True)
-            click.echo(exc.report(), err=True)
-            sys.exit(2)
+            _stop(EXIT_INPUT, "The input cannot be used:", exc.report())
+        except ResultsNotWritten as exc:
+            _stop(
+                EXIT_NOT_WRITTEN,
+                f"Could not write the results: {exc.error}",
+                "Earlier results in the output folder are unchanged.",
+            )
         except OSError as exc:
-            click.echo(f"Could not write the results: {exc}", err=True)
-            click.echo("Earlier results in the output folder are unchanged.", err=True)
-            sys.exit(3)
+            if exc.filename is None:
+                self._internal_error(ctx, exc)
+            # Outside the writing of results, a file the system refuses is an input file.
+            _stop(EXIT_INPUT, "The input cannot be used:", f"{exc.filename}: {exc.strerror}")
+        except KeyboardInterrupt:
+            _stop(EXIT_INTERRUPTED, "Interrupted.")
+        except Exception as exc:
+            self._internal_error(ctx, exc)
 
-    return wrapper  # type: ignore[return-value]
+    def _internal_error(self, ctx: click.Context, exc: BaseException) -> NoReturn:
+        """Stop with status 4: a short message asking for a report, the traceback on request."""
+        command = shlex.join(["flangewise", *ctx.meta.get(_ARGUMENTS, [])])
+        lines = [
+            f"flangewise stopped on an internal error ({type(exc).__name__}). This is a fault in "
+            "flangewise, not a result of the check: nothing printed or written by this run can "
+            "be used.",
+            "Please report it with this command line and the model's input files (the CSV files "
+            "and the settings file):",
+            f"  {command}",
+        ]
+        if _debug_asked(ctx):
+            lines.append("".join(traceback.format_exception(exc)).rstrip())
+        else:
+            lines.append(f"Run it again with --debug (or {DEBUG_VARIABLE}=1) to see the details.")
+        _stop(EXIT_INTERNAL, *lines)
+
+
+def _bad_parameter(name: str, message: str) -> NoReturn:
+    """Raise click's usage error for the current command's parameter ``name`` (exit status 2)."""
+    ctx = click.get_current_context()
+    param = next((p for p in ctx.command.params if p.name == name), None)
+    raise click.BadParameter(message, ctx=ctx, param=param)
 
 
 #: Options shared by several commands.
@@ -69,20 +198,34 @@ def sample_path(name: str) -> Path:
     return Path(str(files("flangewise.sample_models").joinpath(name)))
 
 
-@click.group(context_settings={"help_option_names": ["-h", "--help"]})
+@click.group(
+    cls=_Commands,
+    context_settings={"help_option_names": ["-h", "--help"]},
+    epilog=EXIT_HELP,
+)
 @click.version_option(package_name="flangewise")
-def main() -> None:
+@click.option(
+    "--debug",
+    is_flag=True,
+    help=f"On an internal error (exit status 4), also show the traceback; {DEBUG_VARIABLE}=1 "
+    "in the environment does the same.",
+)
+def main(debug: bool) -> None:
     """Lateral-torsional buckling checks of steel beam segments from frame-analysis CSV exports."""
 
 
 @main.command()
 @model_argument
 @settings_option
-@_input_errors_exit_2
 def summary(model: Path, settings_file: Path | None) -> None:
-    """Load MODEL (a folder of CSV files), validate it and summarise what was read."""
+    """Load MODEL (a folder of CSV files), validate it and summarise what was read.
+
+    It validates exactly what 'check' does (members and segments included): input that check
+    refuses, summary refuses too, with exit status 2.
+    """
     loaded = load_model(model, settings_file)
-    click.echo(model_summary(loaded))
+    layout = build_layout(loaded)
+    click.echo(model_summary(loaded, layout))
     click.echo(CAUTION)
 
 
@@ -95,7 +238,6 @@ def summary(model: Path, settings_file: Path | None) -> None:
     type=click.Path(dir_okay=False, path_type=Path),
     help="Also write one row per segment to this CSV file.",
 )
-@_input_errors_exit_2
 def members(model: Path, settings_file: Path | None, csv_file: Path | None) -> None:
     """Show how MODEL's elements chain into members and where each flange is braced.
 
@@ -108,61 +250,108 @@ def members(model: Path, settings_file: Path | None, csv_file: Path | None) -> N
     click.echo(members_text(layout.members, layout.segments, layout.diagrams))
     if csv_file is not None:
         rows = segment_rows(layout.members, layout.segments, layout.diagrams)
-        write_atomic(csv_file, lambda fh: rows.to_csv(fh, index=False, float_format="%.4f"))
+        with _writing():
+            write_atomic(csv_file, lambda fh: rows.to_csv(fh, index=False, float_format="%.4f"))
         click.echo(f"Segments written to {csv_file}")
     click.echo(CAUTION)
 
 
-def _run_check(
-    model: Path,
-    settings_file: Path | None,
-    out: Path,
-    members_wanted: tuple[str, ...],
-    combinations: tuple[str, ...],
-    method: str | None,
-    report: bool = False,
-) -> int:
-    """Load, check, write and summarise; return the number of pairs over 1.0."""
+@dataclasses.dataclass(frozen=True)
+class _Run:
+    """What one check run is asked to do (from the command line)."""
+
+    model: Path
+    settings_file: Path | None
+    out: Path
+    members: tuple[str, ...] = ()
+    combinations: tuple[str, ...] = ()
+    method: str | None = None
+    report: bool = False
+
+
+def _load_and_hash(run: _Run) -> tuple[Model, list[Any]]:
+    """Load the model while its input files are hashed alongside; return both."""
+    hashing = start_hashing(read_settings(run.model, run.settings_file))
+    try:
+        loaded = load_model(run.model, run.settings_file, combinations=run.combinations or None)
+    except BaseException:
+        for future in hashing:
+            future.cancel()
+        raise
+    return loaded, finish_hashing(hashing)
+
+
+def _members_of_run(result: CheckResult, wanted: Sequence[str]) -> list[str]:
+    """The members ``--member`` names, each once, in the order given; every one must exist."""
+    known = [str(m) for m in result.layout.members.table.index]
+    unknown = [m for m in dict.fromkeys(wanted) if m not in set(known)]
+    if unknown:
+        _bad_parameter(
+            "members_wanted",
+            unknown_names_message("member", unknown, known, "'flangewise members MODEL'"),
+        )
+    return list(dict.fromkeys(wanted))
+
+
+def _selection_line(run: _Run) -> str:
+    parts = []
+    if run.members:
+        parts.append(f"members {', '.join(dict.fromkeys(run.members))} (--member)")
+    if run.combinations:
+        parts.append(f"load combinations {', '.join(run.combinations)} (--combination)")
+    return "; ".join(parts)
+
+
+def _run_check(run: _Run) -> dict[str, Any]:
+    """Load, check, write and summarise; return the summary (with the run's outcome)."""
     show = sys.stdout.isatty()
     stages = ["reading", "checking", "writing"]
     with click.progressbar(stages, label="flangewise", file=None if show else _Null()) as bar:
         it = iter(bar)
         next(it)
-        loaded = load_model(model, settings_file, combinations=combinations or None)
+        loaded, inputs = _load_and_hash(run)
         settings = loaded.settings.check
-        if method:
-            settings = dataclasses.replace(settings, gradient=method)
+        if run.method:
+            settings = dataclasses.replace(settings, gradient=run.method)
         next(it, None)
         result = check_model(loaded, settings)
+        scope = None
+        if run.members:
+            # Narrow the results themselves, so that every output describes the same set.
+            scope = _members_of_run(result, run.members)
+            result = exports.select_members(result, scope)
         seg = exports.segment_table(result)
-        if members_wanted:
-            unknown = sorted(set(members_wanted) - set(seg["member"]))
-            if unknown:
-                raise click.BadParameter(
-                    f"no member named {', '.join(unknown)} (see 'flangewise members')",
-                    param_hint="--member",
-                )
-            seg = seg[seg["member"].isin(members_wanted)].reset_index(drop=True)
         next(it, None)
-        info = exports.summary(result, seg, model)
+        info = exports.summary(result, seg, run.model, members=scope)
+        filters = {
+            "member": list(run.members),
+            "combination": list(run.combinations),
+            "method": run.method,
+        }
+        arguments = click.get_current_context().meta.get(_ARGUMENTS, [])
+        info["provenance"] = provenance(loaded.settings, settings, inputs, filters, arguments)
+        text = exports.summary_text(info)  # before writing: nothing can fail after the results
         texts = {}
-        if report:
-            texts["report.html"] = build_report(result, model, _settings_line(loaded))
-        exports.write_results(
-            out,
-            {
-                "segments.csv": seg,
-                "governing.csv": exports.governing_table(seg),
-                "flagged.csv": exports.flagged_table(seg),
-            },
-            info,
-            texts=texts,
-        )
-    click.echo(exports.summary_text(info))
+        if run.report:
+            texts["report.html"] = build_report(
+                result,
+                run.model,
+                _settings_line(loaded),
+                _selection_line(run),
+                exports.outcome_line(info["result"]).replace("Result         :", "Result:"),
+            )
+        tables = {
+            "segments.csv": seg,
+            "governing.csv": exports.governing_table(seg),
+            "flagged.csv": exports.flagged_table(seg),
+        }
+        with _writing():
+            exports.write_results(run.out, tables, info, texts=texts)
+    click.echo(text)
     names = ", ".join([*exports.RESULT_FILES, *texts])
-    click.echo(f"Results        : {out}/ ({names})")
+    click.echo(f"Results        : {run.out}/ ({names})")
     click.echo(CAUTION)
-    return int(info["pairs over 1.0"])
+    return info
 
 
 def _settings_line(model: Model) -> str:
@@ -188,7 +377,7 @@ class _Null:
         return False
 
 
-@main.command()
+@main.command(epilog=CHECK_EXIT_HELP)
 @model_argument
 @settings_option
 @click.option(
@@ -211,9 +400,9 @@ class _Null:
 @click.option(
     "--exit-zero",
     is_flag=True,
-    help="Exit with status 0 even when a segment is over 1.0.",
+    help="Exit with status 0 even when the results are not shown to pass (the summary still "
+    "says why).",
 )
-@_input_errors_exit_2
 def check(
     model: Path,
     settings_file: Path | None,
@@ -226,13 +415,17 @@ def check(
 ) -> None:
     """Check every unbraced segment of MODEL in every load combination.
 
-    Exit status: 0 when every checked segment passes, 1 when any is over 1.0 (unless
-    --exit-zero), 2 for input that cannot be used, 3 when the results could not be written
-    (earlier results are then left as they were).
+    The results are shown to pass only when something was checked, no checked pair is over
+    1.0 and every pair with its flange in compression was checked. Every output (the terminal
+    summary, the CSV files, summary.json and report.html) describes the same set: the members
+    and load combinations chosen with --member and --combination. summary.json records how the
+    results were made: tool version, settings, filters, command line and a sha256 of every input
+    file. The output folder ends up holding exactly this run's result files.
     """
-    over = _run_check(model, settings_file, out, members_wanted, combinations, method, report)
-    if over and not exit_zero:
-        sys.exit(1)
+    run = _Run(model, settings_file, out, members_wanted, combinations, method, report)
+    info = _run_check(run)
+    if not info["result"]["shown to pass"] and not exit_zero:
+        sys.exit(EXIT_NOT_SHOWN_TO_PASS)
 
 
 @main.command()
@@ -241,7 +434,6 @@ def check(
 @click.argument("combination")
 @settings_option
 @method_option
-@_input_errors_exit_2
 def explain(
     model: Path, segment: str, combination: str, settings_file: Path | None, method: str | None
 ) -> None:
@@ -256,16 +448,17 @@ def explain(
     result = check_model(loaded, settings)
     try:
         row = find_pair(result, segment, combination)
-    except KeyError as exc:
-        raise click.BadParameter(str(exc.args[0])) from None
+    except UnknownName as exc:
+        _bad_parameter(exc.param, exc.message)
     click.echo(derivation_text(result, row))
     click.echo(CAUTION)
 
 
-@main.command()
-@_input_errors_exit_2
+@main.command(epilog=CHECK_EXIT_HELP)
 def demo() -> None:
     """Check the bundled sample model into ./flangewise-demo (no arguments needed)."""
     folder = sample_path(DEMO_SAMPLE)
     click.echo(f"Sample model: {DEMO_SAMPLE}")
-    _run_check(folder, None, Path(DEMO_OUT), (), (), None, report=True)
+    info = _run_check(_Run(folder, None, Path(DEMO_OUT), report=True))
+    if not info["result"]["shown to pass"]:
+        sys.exit(EXIT_NOT_SHOWN_TO_PASS)

@@ -16,6 +16,7 @@ from flangewise.engine.flags import FLAGS
 from flangewise.engine.gradient import INSIDE_TOLERANCE, MIN_INSIDE_STATIONS
 from flangewise.engine.resistance import INELASTIC_SWITCH
 from flangewise.engine.sections import FLANGE_LIMITS, WEB_LIMITS
+from flangewise.postproc.names import UnknownName, unknown_names_message
 
 KNM = 1.0e6
 M = 1.0e3
@@ -40,20 +41,28 @@ def find_pair(result: CheckResult, segment: str, combination: str) -> pd.Series:
     """Return the result row of one segment in one combination.
 
     Raises:
-        KeyError: with the names that exist, when either is unknown.
+        UnknownName: the segment or the combination is not in the model (with the close matches
+            and the names that exist), or the segment has no forces in that combination.
     """
-    r = result.results
-    segs = r["segment"].astype(str)
-    combos = r["combination"].astype(str)
-    if segment not in set(segs):
-        raise KeyError(f"no segment '{segment}' (see 'flangewise members' for the names)")
-    if combination not in set(combos):
-        raise KeyError(
-            f"no load combination '{combination}'; there are: {', '.join(sorted(set(combos)))}"
+    segments = [str(s) for s in result.layout.segments.table.index]
+    combinations = [str(c) for c in result.layout.diagrams.combinations]
+    if segment not in set(segments):
+        raise UnknownName(
+            "segment",
+            unknown_names_message("segment", [segment], segments, "'flangewise members MODEL'"),
         )
-    hit = r[(segs == segment) & (combos == combination)]
+    if combination not in set(combinations):
+        raise UnknownName(
+            "combination", unknown_names_message("load combination", [combination], combinations)
+        )
+    r = result.results
+    hit = r[(r["segment"].astype(str) == segment) & (r["combination"].astype(str) == combination)]
     if hit.empty:
-        raise KeyError(f"segment '{segment}' has no forces in '{combination}'")
+        raise UnknownName(
+            "segment",
+            f"segment '{segment}' has no forces in load combination '{combination}' "
+            "(its member's elements have no force rows there)",
+        )
     return hit.iloc[0]
 
 

@@ -2,11 +2,12 @@
 
 from __future__ import annotations
 
+import dataclasses
 import json
 import os
 import shutil
 import tempfile
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from concurrent.futures import ThreadPoolExecutor
 from importlib.metadata import version
 from pathlib import Path
@@ -29,6 +30,10 @@ M = 1.0e3  # mm per m
 
 #: Result files written by a check, in the order they are written.
 RESULT_FILES = ("segments.csv", "governing.csv", "flagged.csv", "summary.json")
+
+#: Every file name a check may write into its output folder. A run removes those it did not
+#: write this time, so the folder never mixes one run's files with an earlier run's.
+OUR_FILES = (*RESULT_FILES, "report.html")
 
 METHOD_WORDS = {
     "end_moment": "end-moment ω2 (SANS 10162-1 cl. 13.6(a))",
@@ -84,6 +89,13 @@ def segment_table(result: CheckResult) -> pd.DataFrame:
     )
 
 
+def select_members(result: CheckResult, members: Sequence[str]) -> CheckResult:
+    """The results of ``members`` only: what every output of a ``--member`` run describes."""
+    r = result.results
+    keep = r["member"].isin(list(members)).to_numpy()
+    return dataclasses.replace(result, results=r[keep])
+
+
 def governing_table(segments: pd.DataFrame) -> pd.DataFrame:
     """The governing row of each member: its checked pair of highest utilization.
 
@@ -118,8 +130,23 @@ def _status_in(segments: pd.DataFrame, *words: str) -> np.ndarray:
     return status.isin(list(words)).to_numpy()
 
 
-def summary(result: CheckResult, segments: pd.DataFrame, model_folder: Path) -> dict[str, Any]:
-    """Counts, the worst result and the flags, as a JSON-ready dict."""
+def summary(
+    result: CheckResult,
+    segments: pd.DataFrame,
+    model_folder: Path,
+    members: Sequence[str] | None = None,
+) -> dict[str, Any]:
+    """Counts, the worst result, the flags and the outcome, as a JSON-ready dict.
+
+    Everything is counted from ``segments``, the table the run writes, so that the summary
+    describes the same (possibly filtered) set as the CSV files.
+
+    Args:
+        result: the check's results (for the members and the settings).
+        segments: the run's segment table (:func:`segment_table`, after any filter).
+        model_folder: the model checked.
+        members: the members the run covers (``--member``); all of the model's by default.
+    """
     checked = segments[_status_in(segments, "ok", "over")]
     worst: dict[str, Any] | None = None
     if len(checked):
@@ -133,10 +160,18 @@ def summary(result: CheckResult, segments: pd.DataFrame, model_folder: Path) -> 
             "demand [kN·m]": round(float(w["demand [kN·m]"]), 3),
         }
     # Members whose elements have no force rows at all: say so rather than skip them silently.
-    all_members = result.layout.members.table.index.astype(str)
-    with_forces = set(result.results["member"].astype(str))
-    no_forces = [m for m in all_members if m not in with_forces]
-    flag_counts = {name: int(result.results[f"flag_{name}"].sum()) for name in FLAGS}
+    scope = list(result.layout.members.table.index.astype(str)) if members is None else members
+    with_forces = set(segments["member"].astype(str).unique())
+    no_forces = [m for m in scope if m not in with_forces]
+    counts = {
+        "pairs checked": len(checked),
+        "pairs not critical": int(_status_in(segments, "not critical").sum()),
+        "pairs not checked (class 4)": int(_status_in(segments, "not checked").sum()),
+        "pairs over 1.0": int(_status_in(segments, "over").sum()),
+        "pairs without a finite utilization": int(
+            (~np.isfinite(checked["utilization"].to_numpy(dtype=np.float64))).sum()
+        ),
+    }
     return {
         "tool": f"flangewise {version('flangewise')}",
         "model": str(model_folder),
@@ -144,19 +179,57 @@ def summary(result: CheckResult, segments: pd.DataFrame, model_folder: Path) -> 
         "E [MPa]": result.settings.E,
         "G [MPa]": result.settings.G,
         "phi": result.settings.phi,
+        "result": outcome(counts),
         "members": int(segments["member"].nunique()),
         "segments": int(segments["segment"].nunique()),
         "load combinations": int(segments["combination"].nunique()),
-        "pairs checked": len(checked),
-        "pairs not critical": int(_status_in(segments, "not critical").sum()),
-        "pairs not checked (class 4)": int(_status_in(segments, "not checked").sum()),
-        "pairs over 1.0": int(_status_in(segments, "over").sum()),
+        **counts,
         "members without forces (not checked)": no_forces,
         "worst": worst,
-        "flags": flag_counts,
+        "flags": flag_counts(segments),
         "flag meanings": FLAGS,
         "caution": CAUTION,
     }
+
+
+def outcome(counts: dict[str, int]) -> dict[str, Any]:
+    """Whether the run shows every pair to pass, and if not, why not.
+
+    A run is *shown to pass* only when something was checked and nothing stands against it: no
+    checked pair over 1.0, no pair with its flange in compression left unchecked (class 4), and
+    no checked pair without a finite utilization. Anything else is *not shown to pass* (exit
+    status 1): a run that checked nothing has shown nothing.
+    """
+    reasons = []
+    if counts["pairs over 1.0"]:
+        reasons.append(f"{counts['pairs over 1.0']} pair(s) over 1.0")
+    if counts["pairs not checked (class 4)"]:
+        reasons.append(
+            f"{counts['pairs not checked (class 4)']} pair(s) with the flange in compression "
+            "not checked (class 4 section)"
+        )
+    if counts["pairs without a finite utilization"]:
+        reasons.append(
+            f"{counts['pairs without a finite utilization']} checked pair(s) without a finite "
+            "utilization"
+        )
+    if not counts["pairs checked"]:
+        reasons.append(
+            "nothing was checked (no segment has its flange in compression in the load "
+            "combinations and members of this run, or no member has forces)"
+        )
+    return {"shown to pass": not reasons, "reasons": reasons}
+
+
+def flag_counts(segments: pd.DataFrame) -> dict[str, int]:
+    """Pairs carrying each flag, counted from the table's ``flags`` column (names joined by ' ')."""
+    # Count each distinct combination of flags once (a handful), then split it into names.
+    per_text = segments["flags"].astype("category").value_counts()
+    counts = dict.fromkeys(FLAGS, 0)
+    for text, n in per_text.items():
+        for name in str(text).split():
+            counts[name] += int(n)
+    return counts
 
 
 def summary_text(info: dict[str, Any]) -> str:
@@ -190,7 +263,15 @@ def summary_text(info: dict[str, Any]) -> str:
         "Flags          : "
         + (", ".join(f"{k} {v}" for k, v in flagged.items()) if flagged else "none")
     )
+    lines.append(outcome_line(info["result"]))
     return "\n".join(lines)
+
+
+def outcome_line(result: dict[str, Any]) -> str:
+    """The run's outcome in one line: passes, or NOT SHOWN TO PASS and why."""
+    if result["shown to pass"]:
+        return "Result         : passes (every checked pair at or below 1.0)"
+    return "Result         : NOT SHOWN TO PASS: " + "; ".join(result["reasons"])
 
 
 def write_results(
@@ -204,15 +285,19 @@ def write_results(
 
     All files are first written completely into a staging folder inside ``out``; only then is
     each moved over its old version with an atomic rename, the old one parked in the staging
-    folder. A failure at any point puts the parked files back: ``out`` holds either the complete
-    earlier set or the complete new one, and nothing half-written is ever visible there.
+    folder. Any other file of ours (:data:`OUR_FILES`) that this run does not write, such as an
+    earlier run's ``report.html``, is parked there too, so that ``out`` ends up holding exactly
+    this run's files; files that are not ours are never touched. A failure at any point puts the
+    parked files back: ``out`` holds either the complete earlier set or the complete new one, and
+    nothing half-written is ever visible there.
 
     Args:
         out: the results folder (created if needed).
         tables: file name -> table, for the CSV files.
         info: the summary, written as JSON.
-        before_replace: called with each file name just before it replaces the old one (a hook
-            for tests that inject a failure).
+        before_replace: called with each file name just before it replaces (or, for an earlier
+            file this run does not write, removes) the old one (a hook for tests that inject a
+            failure).
         texts: file name -> text, for other files (the HTML report).
     """
     out.mkdir(parents=True, exist_ok=True)
@@ -220,6 +305,7 @@ def write_results(
     moved: list[str] = []  # old files parked in the staging folder, to put back on failure
     texts = texts or {}
     names = [*tables, *texts, "summary.json"]
+    stale = [n for n in OUR_FILES if n not in names and (out / n).is_file()]
     try:
         for name, table in tables.items():
             write_csv(stage / name, table)
@@ -237,12 +323,17 @@ def write_results(
                     os.replace(out / name, stage / f"old-{name}")
                     moved.append(name)
                 os.replace(stage / name, out / name)
+            for name in stale:
+                if before_replace is not None:
+                    before_replace(name)
+                os.replace(out / name, stage / f"old-{name}")
+                moved.append(name)
         except BaseException:
-            for name in moved:  # put the earlier results back, as a set
-                os.replace(stage / f"old-{name}", out / name)
             for name in names:
                 if name not in moved and not (stage / name).exists():
                     (out / name).unlink(missing_ok=True)
+            for name in moved:  # put the earlier results back, as a set
+                os.replace(stage / f"old-{name}", out / name)
             raise
         return [out / name for name in names]
     finally:

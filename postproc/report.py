@@ -63,13 +63,22 @@ svg .limit { stroke: #8a1c1c; stroke-dasharray: 4 3; }
 """
 
 
-def build_report(result: CheckResult, model_folder: Path, settings_text: str) -> str:
+def build_report(
+    result: CheckResult,
+    model_folder: Path,
+    settings_text: str,
+    selection: str = "",
+    outcome: str = "",
+) -> str:
     """Return the whole report as one HTML string.
 
     Args:
-        result: the check's results.
+        result: the check's results, already narrowed to the run's members: the report describes
+            exactly these rows, as the CSV files and the summary do.
         model_folder: the model that was checked (shown in the header).
         settings_text: a one-line description of the input settings (units, source file).
+        selection: a one-line description of the run's filters ("" for the whole model).
+        outcome: the run's outcome in one line (passes, or not shown to pass and why).
     """
     r = result.results
     gov = _governing(r)
@@ -78,8 +87,8 @@ def build_report(result: CheckResult, model_folder: Path, settings_text: str) ->
     shown, omitted = picked[:MAX_SECTIONS], max(0, len(picked) - MAX_SECTIONS)
     key = station_key(result.layout.diagrams, result.layout.members)
     body = [
-        _header(result, model_folder, settings_text),
-        _overview(result, gov, omitted),
+        _header(result, model_folder, settings_text, selection),
+        _overview(result, gov, omitted, outcome),
         "<h2>Governing and flagged segments</h2>",
     ]
     reasons = {i: ("governing" if i in gov.index else "flagged") for i in shown}
@@ -100,7 +109,7 @@ def _governing(r: pd.DataFrame) -> pd.DataFrame:
     return checked.loc[idx.to_numpy()].sort_values("utilization", ascending=False)
 
 
-def _header(result: CheckResult, folder: Path, settings_text: str) -> str:
+def _header(result: CheckResult, folder: Path, settings_text: str, selection: str) -> str:
     s = result.settings
     when = dt.datetime.now().strftime("%Y-%m-%d %H:%M")
     return (
@@ -109,12 +118,13 @@ def _header(result: CheckResult, folder: Path, settings_text: str) -> str:
         f"flangewise {escape(version('flangewise'))} · {when}</p>"
         f"<p class='meta'>Design basis: {escape(METHOD_WORDS[s.gradient])}; E = {s.E:.0f} MPa, "
         f"G = {s.G:.0f} MPa, φ = {s.phi}</p>"
-        f"<div class='caution'>{escape(CAUTION)}</div>"
+        + (f"<p class='meta'>Only part of the model: {escape(selection)}</p>" if selection else "")
+        + f"<div class='caution'>{escape(CAUTION)}</div>"
         f"<p class='meta'>{escape(SCOPE)}</p>"
     )
 
 
-def _overview(result: CheckResult, gov: pd.DataFrame, omitted: int) -> str:
+def _overview(result: CheckResult, gov: pd.DataFrame, omitted: int, outcome: str) -> str:
     r = result.results
     status = r["status"].astype(str)
     counts = [
@@ -157,7 +167,8 @@ def _overview(result: CheckResult, gov: pd.DataFrame, omitted: int) -> str:
     )
     return (
         "<h2>Overview</h2>"
-        f"<table>{rows}</table>"
+        + (f"<p><b>{escape(outcome)}</b></p>" if outcome else "")
+        + f"<table>{rows}</table>"
         "<h3>Members nearest failure</h3>"
         "<table><tr><th>member</th><th>segment</th><th>load combination</th><th>Lu [m]</th>"
         "<th>factor</th><th>Mr [kN·m]</th><th>utilization</th></tr>"

@@ -2,13 +2,20 @@
 
 from __future__ import annotations
 
+from flangewise.engine.layout import Layout
 from flangewise.readers import Model
 
 _KNM = 1.0e6  # N·mm per kN·m
 
 
-def model_summary(model: Model) -> str:
-    """Return a short multi-line description of what was read: counts, units, moment ranges."""
+def model_summary(model: Model, layout: Layout) -> str:
+    """Return a short multi-line description of what was read: counts, units, moment ranges.
+
+    Args:
+        model: the validated model.
+        layout: its members and segments (built so that the summary refuses exactly the input
+            that a check refuses).
+    """
     s = model.settings
     forces = model.forces
     lines = [
@@ -23,6 +30,8 @@ def model_summary(model: Model) -> str:
         f"Sections     : {len(model.sections)}",
         f"Braces       : {_brace_counts(model)}",
         f"Supports     : {len(model.supports)}",
+        f"Members      : {len(layout.members.table)} "
+        f"({len(layout.segments.table)} unbraced segments; 'flangewise members' lists them)",
         f"Force rows   : {len(forces)} in {len(model.combinations)} load combination(s)",
         "",
         "Major-axis moment per load combination [kN·m] (+ compresses the top flange):",
