@@ -1,7 +1,13 @@
 """Moment diagrams of segments, per load combination, as flat arrays with offsets.
 
-Every force station is placed at its distance along its member (an element drawn backwards is
-turned round), sorted by (combination, member, element order, position). At a node where the
+Every force station is placed along its member in proportion to its position on its element:
+the element spans [s0, s1] along the member (its end nodes projected onto the member's axis), and
+a station at ``position`` of an element of length L lies at s0 + position / L · (s1 - s0) (an
+element drawn backwards is turned round). Element ends therefore land exactly on the member's node
+positions, whatever the rounding of the exported positions or a small kink (within the angle
+tolerance) makes of the element's own length. Stations are sorted by (combination, member, element
+order, position); stations of one member closer than ``STATION_MERGE_MM`` are merged onto one x
+(a member node where one is among them), and x never decreases along a member. At a node where the
 moment jumps, the two elements meeting there each keep their own value, and since segments end at
 nodes each segment sees only the values of its own elements: the value on its own side.
 
@@ -19,7 +25,7 @@ import numpy as np
 import pandas as pd
 from flangewise.engine.members import Members
 from flangewise.engine.segments import Segments
-from flangewise.readers.model import Model
+from flangewise.readers.model import STATION_MERGE_MM, Model
 
 
 @dataclass(frozen=True)
@@ -77,21 +83,52 @@ def member_stations(model: Model, members: Members) -> Stations:
     order_of[model.elements.index.get_indexer(el.index)] = np.arange(len(el))
     ecode = f["element"].cat.codes.to_numpy()
     erow = order_of[ecode]
-    pos = f["position"].to_numpy()
-    s0 = el["s0"].to_numpy()[erow]
-    length = (el["s1"] - el["s0"]).to_numpy()[erow]
-    rev = el["reversed"].to_numpy()[erow]
-    s = np.where(rev, s0 + length - pos, s0 + pos)
+    # Fraction along the element in the member's direction. Positions at the ends are exactly 0
+    # and exactly the length (the readers snap them), so t is exactly 0 or 1 there, and the
+    # interpolation below (written so that t = 0 gives s0 and t = 1 gives s1 bit for bit) puts
+    # them on the member's node positions.
+    t = f["position"].to_numpy() / model.elements["length"].to_numpy()[ecode]
+    t = np.where(el["reversed"].to_numpy()[erow], 1.0 - t, t)
+    s = el["s0"].to_numpy()[erow] * (1.0 - t) + el["s1"].to_numpy()[erow] * t
+    at_node = (t == 0.0) | (t == 1.0)
     ccode = f["combination"].cat.codes.to_numpy().astype(np.int64)
     # Within one element, stations sorted by s; at a shared node the earlier element comes first.
     key = ccode * (len(el) + 1) + erow
     order = np.lexsort((s, key))
+    ccode, erow, s, at_node = ccode[order], erow[order], s[order], at_node[order]
+    member = pd.factorize(el["member"].to_numpy())[0][erow]
+    group_start = np.r_[True, (ccode[1:] != ccode[:-1]) | (member[1:] != member[:-1])]
     return Stations(
-        combination=ccode[order],
-        element=erow[order],
-        s=s[order],
+        combination=ccode,
+        element=erow,
+        s=_merge_close(s, at_node, group_start),
         M=f["M"].to_numpy()[order],
     )
+
+
+def _merge_close(s: np.ndarray, at_node: np.ndarray, group_start: np.ndarray) -> np.ndarray:
+    """Merge sorted stations closer than ``STATION_MERGE_MM`` within each group; keep x rising.
+
+    A cluster of close stations takes the position of a member node in it (exact, shared with
+    the next element), else of its first station. Groups (one member in one combination) start
+    where ``group_start`` is true.
+    """
+    if len(s) == 0:
+        return s
+    gap = np.diff(s)
+    new = group_start.copy()
+    new[1:] |= gap > STATION_MERGE_MM
+    starts = np.flatnonzero(new)
+    cluster = np.cumsum(new) - 1
+    node_s = np.fmax.reduceat(np.where(at_node, s, np.nan), starts)
+    s = np.where(np.isnan(node_s), s[starts], node_s)[cluster]
+    falls = np.flatnonzero((np.diff(s) < 0.0) & ~group_start[1:])
+    if len(falls):
+        # Only where a member bends far along its length can a later element start before the
+        # earlier one ends; never let x run backwards along a member.
+        group = np.cumsum(group_start)
+        s = pd.Series(s).groupby(group).cummax().to_numpy()
+    return s
 
 
 def segment_diagrams(model: Model, members: Members, segments: Segments) -> SegmentDiagrams:

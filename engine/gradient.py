@@ -12,6 +12,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+from flangewise.readers.model import STATION_MERGE_MM
 
 #: Upper limit of ω2 (SANS 10162-1:2011, cl. 13.6(a); CSA S16-14, cl. 13.6(a)).
 OMEGA2_CAP = 2.5
@@ -135,7 +136,7 @@ def end_moment_omega2(runs: Runs) -> EndMomentResult:
     the larger end moment (within ``INSIDE_TOLERANCE``); 1.0 where one does, where both ends are
     zero, and where the run has too few inside stations to show it.
     """
-    starts, counts = runs.starts, runs.counts
+    starts = runs.starts
     last = runs.offsets[1:] - 1
     m_start, m_end = runs.m[starts], runs.m[last]
     run = runs.run_of_station
@@ -149,10 +150,7 @@ def end_moment_omega2(runs: Runs) -> EndMomentResult:
     inside_peak_at = np.where(has_inside, inside_peak_at, np.nan)
     inside_peak = np.maximum(inside_peak, 0.0)
 
-    # Distinct inside positions: an inside station whose x differs from the previous station's.
-    new_x = np.r_[True, runs.x[1:] != runs.x[:-1]]
-    new_x[starts] = True
-    distinct = np.bincount(run, weights=(inside & new_x), minlength=len(counts))
+    distinct = distinct_inside_stations(runs)
 
     large = np.maximum(np.abs(m_start), np.abs(m_end))
     zero_ends = large <= 0.0
@@ -174,6 +172,19 @@ def end_moment_omega2(runs: Runs) -> EndMomentResult:
         few_stations=few,
         capped=applies & (1.75 + 1.05 * kappa + 0.3 * kappa**2 >= OMEGA2_CAP),
     )
+
+
+def distinct_inside_stations(runs: Runs) -> np.ndarray:
+    """Return, per run, how many distinct x strictly inside the segment carry a station.
+
+    An inside station counts when its x lies more than ``STATION_MERGE_MM`` beyond the previous
+    station's: the same place exported twice, or seen through rounding, is one station.
+    """
+    run = runs.run_of_station
+    inside = (runs.x > END_TOLERANCE_MM) & (runs.x < runs.length[run] - END_TOLERANCE_MM)
+    new_x = np.r_[True, np.diff(runs.x) > STATION_MERGE_MM]
+    new_x[runs.starts] = True
+    return np.bincount(run, weights=inside & new_x, minlength=len(runs.length)).astype(np.int64)
 
 
 def moment_at(runs: Runs, fraction: float) -> np.ndarray:

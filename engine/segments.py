@@ -12,6 +12,11 @@ Brace sources at a node of a member: a support (both flanges); a member end that
 another element or a support (both flanges, unless ``connected_ends_brace`` is off); the braces
 table (top, bottom or both); optionally, an element framing in at a large angle (the flange
 ``infer_flange``, marked as assumed).
+
+A member end is free for a flange when it connects to nothing, is no support and the braces table
+lists no brace of that flange there (a cantilever tip held by an edge member the analysis leaves
+out is listed as a brace and is then braced, not free). Free ends and the ``cantilever`` flag are
+therefore per flange.
 """
 
 from __future__ import annotations
@@ -36,13 +41,16 @@ class Segments:
     Attributes:
         stations: ``Members.stations`` plus ``top``, ``bottom`` (braced?), ``top_by``,
             ``bottom_by`` (what braces it: words joined by "+"), ``top_assumed``,
-            ``bottom_assumed`` (held only by an inferred brace), ``free`` (a member end that
-            connects to nothing).
+            ``bottom_assumed`` (held only by an inferred brace), ``top_free``, ``bottom_free``
+            (a member end that connects to nothing, is no support and has no listed brace of
+            that flange; on a steep member both mean "no brace of both flanges"), ``free``
+            (free for at least one flange).
         table: one row per segment, index ``segment`` (id such as "M3-top-2"): ``member``,
             ``flange`` ("top", "bottom" or "either"), ``s_start``, ``s_end``, ``length``,
             ``node_start``, ``node_end``, ``braced_start``, ``braced_end`` (the flange is held
-            there), ``free_start``, ``free_end`` (a member end that connects to nothing),
-            ``cantilever``, ``assumed`` (an end is held only by an inferred brace).
+            there), ``free_start``, ``free_end`` (a member end free for the segment's flange),
+            ``cantilever`` (an end is free for the segment's flange), ``assumed`` (an end is
+            held only by an inferred brace).
         element_segments: per element (index as ``Members.elements``): ``first`` (the top or
             "either" segment number holding it) and ``second`` (the bottom segment number, -1 on
             steep members); numbers are row positions in ``table``.
@@ -82,6 +90,8 @@ def brace_stations(model: Model, members: Members, settings: MemberSettings) -> 
         inferred_bottom = framed & (settings.infer_flange in ("bottom", "both"))
 
     one_flange = said["top"] | said["bottom"]
+    # Connects to nothing and is no support: free unless a listed brace holds the flange there.
+    loose = is_end & (st["others"].to_numpy() == 0) & ~supported
     for flange, listed_one, inferred in (
         ("top", said["top"], inferred_top),
         ("bottom", said["bottom"], inferred_bottom),
@@ -100,7 +110,8 @@ def brace_stations(model: Model, members: Members, settings: MemberSettings) -> 
             }
         )
         st[f"{flange}_assumed"] = assumed & ~firm
-    st["free"] = is_end & (st["others"].to_numpy() == 0) & ~supported
+        st[f"{flange}_free"] = loose & ~brace
+    st["free"] = st["top_free"].to_numpy() | st["bottom_free"].to_numpy()
     # One-flange braces on steep members hold nothing; list each (member, node, flange) where the
     # node is not already held on both flanges by something else (a connected end, a support).
     lost = steep & one_flange & ~(supported | connected_end | said["both"])
@@ -168,7 +179,8 @@ def build_segments(model: Model, members: Members, settings: MemberSettings) -> 
         key = "top" if flange == "either" else flange
         braced = st[key].to_numpy()
         assumed = st[f"{key}_assumed"].to_numpy()
-        parts.append(_segments_between(st, np.flatnonzero(rows), braced, assumed, flange))
+        free = st[f"{key}_free"].to_numpy()
+        parts.append(_segments_between(st, np.flatnonzero(rows), braced, assumed, free, flange))
     table = pd.concat(parts, ignore_index=True)
     mem_rank = pd.Series(np.arange(len(members.table)), index=members.table.index)
     table["rank"] = mem_rank.reindex(table["member"]).to_numpy()
@@ -192,15 +204,22 @@ def build_segments(model: Model, members: Members, settings: MemberSettings) -> 
 
 
 def _segments_between(
-    st: pd.DataFrame, rows: np.ndarray, braced: np.ndarray, assumed: np.ndarray, flange: str
+    st: pd.DataFrame,
+    rows: np.ndarray,
+    braced: np.ndarray,
+    assumed: np.ndarray,
+    free: np.ndarray,
+    flange: str,
 ) -> pd.DataFrame:
-    """Segments between consecutive boundary stations ``rows`` of one member."""
+    """Segments between consecutive boundary stations ``rows`` of one member.
+
+    ``braced``, ``assumed`` and ``free`` are per station, for the segments' flange.
+    """
     member = st["member"].to_numpy()[rows]
     same = member[1:] == member[:-1]
     a, b = rows[:-1][same], rows[1:][same]
     s = st["s"].to_numpy()
     node = st["node"].to_numpy()
-    free = st["free"].to_numpy()
     return pd.DataFrame(
         {
             "member": member[:-1][same],

@@ -16,11 +16,16 @@ Tables (pandas DataFrames):
                (missing = computed).
 ``forces``     columns ``element`` (categorical whose categories are exactly ``elements.index``, so
                the codes are element row numbers), ``combination`` (categorical), ``position`` [mm]
-               from the element's start node, in [0, length], ``M`` [N·mm], positive when it
-               compresses the top flange; where given: ``N`` [N], ``V`` [N], ``M_minor`` [N·mm],
-               ``T`` [N·mm], carried with the file's own signs. Rows are in file order.
+               from the element's start node, in [0, length]; every element has a station exactly
+               at 0 and exactly at its length in every combination (positions within
+               :func:`position_tolerance` of an end are snapped onto it), ``M`` [N·mm], positive
+               when it compresses the top flange; where given: ``N`` [N], ``V`` [N],
+               ``M_minor`` [N·mm], ``T`` [N·mm], carried with the file's own signs.
+               Rows are in file order.
 ``braces``     columns ``node`` (id), ``flange`` ("top", "bottom" or "both").
-``supports``   columns ``node`` (id), ``restrains`` (text such as "ux uy uz", "all" when not given).
+``supports``   columns ``node`` (id), ``restrains`` (the file's own text, unchanged, such as
+               "ux uy uz", "DX DZ" or "fixed"; "all" when not given). A support braces both
+               flanges whatever it restrains.
 """
 
 from __future__ import annotations
@@ -36,12 +41,37 @@ from flangewise.readers.settings import Settings
 COINCIDENT_MM = 1.0
 
 #: A position may exceed its element by this fraction of the element's length before it is an
-#: error; within it the position is clamped (export rounding of positions and lengths).
+#: error; within it the position is clamped (export rounding of positions and lengths). Every
+#: element needs a station this close to each of its ends (see :func:`position_tolerance`).
 POSITION_TOLERANCE = 1.0e-3
+
+#: The tolerance above is never less than this [mm] (common practice: programs export positions
+#: rounded to the mm, which moves a station by up to 0.5 mm; 1 mm covers that with room for the
+#: rounding of the node coordinates the length comes from).
+POSITION_TOLERANCE_MM = 1.0
+
+#: Two force stations along one member closer than this [mm] are one station (the same place
+#: exported twice, or two elements' ends at one node seen through rounding). Half of
+#: ``POSITION_TOLERANCE_MM``: stations that close to an element end were already snapped onto it,
+#: so merging never moves a station past a node.
+STATION_MERGE_MM = 0.5
 
 #: A direction component smaller than this fraction of the length counts as zero when deciding
 #: whether an element is drawn backwards.
 DIRECTION_TOLERANCE = 1.0e-6
+
+
+def position_tolerance(length: np.ndarray) -> np.ndarray:
+    """Return, per element, how far a station may lie from an end and still be that end [mm].
+
+    ``POSITION_TOLERANCE`` of the length, and never less than ``POSITION_TOLERANCE_MM``.
+
+    Args:
+        length: element lengths [mm].
+    """
+    return np.maximum(
+        POSITION_TOLERANCE * np.asarray(length, dtype=np.float64), POSITION_TOLERANCE_MM
+    )
 
 
 def drawn_backwards(dx: np.ndarray, dy: np.ndarray, dz: np.ndarray) -> np.ndarray:
