@@ -67,6 +67,13 @@ COLUMNS: dict[str, tuple[tuple[str, bool], ...]] = {
 
 FLANGE_WORDS: tuple[str, ...] = ("top", "bottom", "both")
 
+#: Yield stresses outside this range [MPa] are almost always a units mistake (common practice:
+#: structural steel grades lie between about 200 and 700 MPa).
+FY_RANGE_MPA = (150.0, 1000.0)
+
+#: Characters that cannot separate fields: they end rows, quote values or occur in numbers.
+_BAD_DELIMITERS = frozenset('\n\r"0123456789.+-eE')
+
 
 @dataclass(frozen=True)
 class Units:
@@ -135,6 +142,8 @@ class Settings:
         folder: the model folder; file names are relative to it.
         source: the settings file read, or ``None`` for the built-in defaults.
         files: file name per table.
+        named_files: the tables whose file the settings file names in ``[files]``; such a file
+            must exist even for an optional table (a misspelt name is not "no braces").
         columns: per table, our column name -> the file's column name.
         delimiter: CSV field delimiter.
         decimal: decimal mark ("." or ",").
@@ -156,6 +165,7 @@ class Settings:
     files: Mapping[str, str] = field(
         default_factory=lambda: MappingProxyType({t: f"{t}.csv" for t in TABLES})
     )
+    named_files: frozenset[str] = frozenset()
     columns: Mapping[str, Mapping[str, str]] = field(
         default_factory=lambda: MappingProxyType(
             {t: MappingProxyType({c: c for c, _ in COLUMNS[t]}) for t in TABLES}
@@ -259,13 +269,21 @@ def _settings_from_dict(folder: Path, path: Path, data: dict[str, Any]) -> Setti
             given = {}
         check_keys(f"columns.{t}", given, ours)
         columns[t] = MappingProxyType({c: str(given.get(c, c)) for c in ours})
+        _one_file_column_each(name, t, columns[t], problems)
 
     csv_in = table("csv")
     check_keys("csv", csv_in, ("delimiter", "decimal"))
     delimiter = str(csv_in.get("delimiter", ","))
     decimal = str(csv_in.get("decimal", "."))
-    if len(delimiter) != 1:
-        _expect(problems, name, "csv.delimiter", delimiter, "one character, such as ',' or ';'")
+    if len(delimiter) != 1 or delimiter in _BAD_DELIMITERS:
+        _expect(
+            problems,
+            name,
+            "csv.delimiter",
+            delimiter,
+            "one character, such as ',' or ';' (not a line break, a quote, a digit, '.', '+', "
+            "'-' or 'e')",
+        )
     if decimal not in (".", ","):
         _expect(problems, name, "csv.decimal", decimal, "'.' or ','")
     if decimal == delimiter:
@@ -319,23 +337,24 @@ def _settings_from_dict(folder: Path, path: Path, data: dict[str, Any]) -> Setti
     # 350 MPa is a common structural grade; a model in another grade names its own (README).
     default_fy = 350.0
     if "fy" in material_in:
-        fy = material_in["fy"]
-        if isinstance(fy, bool) or not isinstance(fy, int | float):
-            _expect(problems, name, "material.fy", fy, "a number in the stress unit")
+        stress = unit_values["stress"]
+        fy = _yield_stress(material_in["fy"], units.STRESS_TO_MPA.get(stress, 1.0))
+        if fy is None:
+            lo, hi = FY_RANGE_MPA
+            _expect(
+                problems,
+                name,
+                "material.fy",
+                material_in["fy"],
+                f"a yield stress of {lo:g} to {hi:g} MPa once converted from '{stress}' "
+                "(a value outside is almost always a units mistake: check [units] stress)",
+            )
         else:
-            default_fy = float(fy) * units.STRESS_TO_MPA.get(unit_values["stress"], 1.0)
+            default_fy = fy
 
     words_in = table("flange_words")
     check_keys("flange_words", words_in, FLANGE_WORDS)
-    flange_words: dict[str, tuple[str, ...]] = {}
-    for w in FLANGE_WORDS:
-        given_words = words_in.get(w, [])
-        if isinstance(given_words, str):
-            given_words = [given_words]
-        if not isinstance(given_words, list):
-            _expect(problems, name, f"flange_words.{w}", given_words, "a word or a list of words")
-            given_words = []
-        flange_words[w] = tuple(str(x).strip().lower() for x in given_words)
+    flange_words = _flange_words(name, words_in, problems)
 
     members = _member_settings(name, table("members"), problems)
     check = _check_settings(name, table("check"), problems)
@@ -346,6 +365,7 @@ def _settings_from_dict(folder: Path, path: Path, data: dict[str, Any]) -> Setti
         folder=folder,
         source=path,
         files=MappingProxyType(files),
+        named_files=frozenset(t for t in TABLES if t in files_in),
         columns=MappingProxyType(columns),
         delimiter=delimiter,
         decimal=decimal,
@@ -360,6 +380,82 @@ def _settings_from_dict(folder: Path, path: Path, data: dict[str, Any]) -> Setti
         members=members,
         check=check,
     )
+
+
+def _one_file_column_each(
+    name: str, table: str, mapping: Mapping[str, str], problems: list[Problem]
+) -> None:
+    """Record every file column that two of our columns are mapped to (blanks ignored)."""
+    owner: dict[str, str] = {}
+    for ours, theirs in mapping.items():
+        key = theirs.strip()
+        if key in owner:
+            _expect(
+                problems,
+                name,
+                f"columns.{table}.{ours}",
+                theirs,
+                f"a file column of its own: [columns.{table}] {owner[key]} is already mapped to "
+                f"'{key}' (by default our names map to the file columns of the same name)",
+            )
+        else:
+            owner[key] = ours
+
+
+def _yield_stress(value: object, to_mpa: float) -> float | None:
+    """Return ``value`` in MPa when it is a finite number in :data:`FY_RANGE_MPA`, else ``None``."""
+    if isinstance(value, bool) or not isinstance(value, int | float):
+        return None
+    mpa = float(value) * to_mpa
+    lo, hi = FY_RANGE_MPA
+    # NaN fails both comparisons; infinities fail one.
+    return mpa if lo <= mpa <= hi else None
+
+
+def _flange_words(
+    name: str, given: dict[str, Any], problems: list[Problem]
+) -> dict[str, tuple[str, ...]]:
+    """Read ``[flange_words]``: extra words per flange, lower case.
+
+    An extra word may not be one of ours (``top = ["bottom"]`` would brace the wrong flange) nor
+    mean two flanges; it must not be empty.
+    """
+    out: dict[str, tuple[str, ...]] = {}
+    owner: dict[str, str] = {}
+    for w in FLANGE_WORDS:
+        where = f"flange_words.{w}"
+        words = given.get(w, [])
+        if isinstance(words, str):
+            words = [words]
+        if not isinstance(words, list):
+            _expect(problems, name, where, words, "a word or a list of words")
+            words = []
+        kept = []
+        for raw in words:
+            word = str(raw).strip().lower()
+            if not isinstance(raw, str) or not word:
+                _expect(problems, name, where, raw, "a word (text that is not empty)")
+            elif word in FLANGE_WORDS:
+                _expect(
+                    problems,
+                    name,
+                    where,
+                    raw,
+                    f"a word other than our own {list(FLANGE_WORDS)}, which always mean themselves",
+                )
+            elif word in owner and owner[word] != w:
+                _expect(
+                    problems,
+                    name,
+                    where,
+                    raw,
+                    f"a word that means one flange only: flange_words.{owner[word]} has it too",
+                )
+            else:
+                owner[word] = w
+                kept.append(word)
+        out[w] = tuple(kept)
+    return out
 
 
 def _member_settings(name: str, given: dict[str, Any], problems: list[Problem]) -> MemberSettings:

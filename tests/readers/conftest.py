@@ -67,6 +67,8 @@ class ModelFiles:
         self.folder = folder
         self.tables = copy.deepcopy(BASE_TABLES)
         self.settings: str | None = None
+        #: Files written byte for byte instead of their table (file name -> content).
+        self.raw: dict[str, bytes] = {}
 
     def set(self, table: str, row: int, column: str, value: str) -> None:
         """Set one cell; ``row`` counts as a spreadsheet does (header = row 1)."""
@@ -80,12 +82,24 @@ class ModelFiles:
         for row in rows:
             del row[i]
 
+    def text(self, table: str, delimiter: str = ",") -> str:
+        """Return a table as the CSV text :meth:`write` would give it (to edit by hand)."""
+        return "".join(delimiter.join(row) + "\n" for row in self.tables[table])
+
+    def replace_line(self, table: str, row: int, line: str) -> None:
+        """Write ``table`` with spreadsheet row ``row`` replaced by ``line`` exactly."""
+        lines = self.text(table).splitlines()
+        lines[row - 1] = line
+        self.raw[f"{table}.csv"] = ("\n".join(lines) + "\n").encode("utf-8")
+
     def write(self, delimiter: str = ",") -> Path:
         """Write every table (and ``flangewise.toml`` if settings are given); return the folder."""
         self.folder.mkdir(parents=True, exist_ok=True)
         for table, rows in self.tables.items():
             with open(self.folder / f"{table}.csv", "w", newline="", encoding="utf-8") as fh:
                 csv.writer(fh, delimiter=delimiter).writerows(rows)
+        for file, content in self.raw.items():
+            (self.folder / file).write_bytes(content)
         if self.settings is not None:
             (self.folder / "flangewise.toml").write_text(self.settings, encoding="utf-8")
         return self.folder
@@ -99,6 +113,10 @@ class ModelFiles:
         with pytest.raises(InputError) as info:
             self.load()
         return info.value
+
+    def problems_of(self, file: str) -> list[Problem]:
+        """Load, expect an error, and return its problems about ``file``."""
+        return [p for p in self.load_error().problems if Path(p.file).name == file]
 
     def expect_problem(self, file: str, row: int | None, column: str | None) -> Problem:
         """Load, expect an error, and return its problem at (file, row, column).
