@@ -711,7 +711,9 @@ def _selected_combinations(
     for c in wanted:
         if c in present:
             continue
-        close = difflib.get_close_matches(c, names, n=3, cutoff=0.6)
+        # Case is ignored in the comparison: "uls1" is a near miss of "ULS1".
+        lowered = {n.lower(): n for n in names}
+        close = [lowered[n] for n in difflib.get_close_matches(c.lower(), list(lowered), n=3)]
         near = f"; closest: {', '.join(repr(n) for n in close)}" if close else ""
         expected = f"a load combination of {file}: {shown}{near}"
         if from_option:
