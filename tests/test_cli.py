@@ -134,3 +134,66 @@ def test_readme_names_every_command_and_no_other():
             for opt in getattr(param, "opts", []):
                 if opt.startswith("--") and opt != "--help":
                     assert opt in readme, f"{name} {opt} is not in the README"
+
+
+def _overlapping(folder: Path) -> str:
+    """B9 from N1 to N3 runs along B1 and B2: overlapping elements."""
+    with (folder / "elements.csv").open("a", encoding="utf-8") as fh:
+        fh.write("B9,N1,N3,W410x60\n")
+    return "expected no overlap with element 'B9'"
+
+
+def _member_ids_that_do_not_chain(folder: Path) -> str:
+    """Member id G1 on B1, B2 and B5: not one straight chain (B3, B4 lie between)."""
+    elements = folder / "elements.csv"
+    lines = elements.read_text(encoding="utf-8").splitlines()
+    lines[0] += ",member"
+    lines[1:] = [line + (",G1" if i in (1, 2, 5) else ",G2") for i, line in enumerate(lines[1:], 1)]
+    elements.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    return "column 'member': got 'G1'; expected elements of one member id to form one straight"
+
+
+@pytest.mark.parametrize("spoil", [_overlapping, _member_ids_that_do_not_chain])
+def test_every_command_refuses_what_check_refuses(tmp_path, spoil):
+    folder = tmp_path / "model"
+    shutil.copytree(SAMPLE, folder)
+    problem = spoil(folder)
+    runner = CliRunner()
+    for args in (
+        ["summary", str(folder)],
+        ["members", str(folder)],
+        ["check", str(folder), "--out", str(tmp_path / "r")],
+        ["explain", str(folder), "M1-top-1", "ULS-1 gravity"],
+    ):
+        result = runner.invoke(main, args)
+        assert result.exit_code == 2, (args, result.output)
+        assert problem in result.stderr, args
+        assert "Traceback" not in result.output
+
+
+def test_explain_names_the_argument_and_the_close_names():
+    runner = CliRunner()
+    segment = runner.invoke(main, ["explain", str(SAMPLE), "M1-top-9", "ULS-1 gravity"])
+    assert segment.exit_code == 2, segment.output
+    assert "Invalid value for 'SEGMENT': no segment named 'M1-top-9' (close: M1-top-" in (
+        segment.stderr
+    )
+    assert "The 8 segments are: M1-top-1, M1-top-2, M1-top-3, M1-top-4, M1-bottom-1" in (
+        segment.stderr
+    )
+    combination = runner.invoke(main, ["explain", str(SAMPLE), "M1-top-1", "ULS-1 gravty"])
+    assert combination.exit_code == 2, combination.output
+    assert "Invalid value for 'COMBINATION': no load combination named 'ULS-1 gravty'" in (
+        combination.stderr
+    )
+    assert "(close: ULS-1 gravity" in combination.stderr
+    assert "The 2 load combinations are: ULS-1 gravity, ULS-2 pattern." in combination.stderr
+    for result in (segment, combination):
+        assert "None" not in result.stderr
+
+
+def test_summary_counts_members_and_segments():
+    result = CliRunner().invoke(main, ["summary", str(SAMPLE)])
+    assert result.exit_code == 0, result.output
+    # One member of eight elements, four segments per flange (the sample's README).
+    assert "Members      : 1 (8 unbraced segments" in result.output
