@@ -339,6 +339,7 @@ def _run_check(run: _Run) -> dict[str, Any]:
                 _settings_line(loaded),
                 _selection_line(run),
                 exports.outcome_line(info["result"]).replace("Result         :", "Result:"),
+                info["members without forces (not checked)"],
             )
         tables = {
             "segments.csv": seg,

@@ -9,6 +9,7 @@ with the clause beside each step. The caution stands at the top and in every sec
 from __future__ import annotations
 
 import datetime as dt
+from collections.abc import Sequence
 from html import escape
 from importlib.metadata import version
 from pathlib import Path
@@ -35,6 +36,8 @@ SCOPE = (
 MAX_SECTIONS = 200
 #: At most this many members in the utilization chart (the highest first).
 MAX_BARS = 300
+#: At most this many members without forces named; the rest are counted.
+MAX_LISTED = 50
 
 CSS = """
 body { font-family: Georgia, 'DejaVu Serif', serif; color: #1b1b1b; max-width: 62rem;
@@ -69,6 +72,7 @@ def build_report(
     settings_text: str,
     selection: str = "",
     outcome: str = "",
+    no_forces: Sequence[str] = (),
 ) -> str:
     """Return the whole report as one HTML string.
 
@@ -79,6 +83,7 @@ def build_report(
         settings_text: a one-line description of the input settings (units, source file).
         selection: a one-line description of the run's filters ("" for the whole model).
         outcome: the run's outcome in one line (passes, or not shown to pass and why).
+        no_forces: the run's members that have no force rows (listed as not checked).
     """
     r = result.results
     gov = _governing(r)
@@ -88,7 +93,7 @@ def build_report(
     key = station_key(result.layout.diagrams, result.layout.members)
     body = [
         _header(result, model_folder, settings_text, selection),
-        _overview(result, gov, omitted, outcome),
+        _overview(result, gov, omitted, outcome, no_forces),
         "<h2>Governing and flagged segments</h2>",
     ]
     reasons = {i: ("governing" if i in gov.index else "flagged") for i in shown}
@@ -124,7 +129,9 @@ def _header(result: CheckResult, folder: Path, settings_text: str, selection: st
     )
 
 
-def _overview(result: CheckResult, gov: pd.DataFrame, omitted: int, outcome: str) -> str:
+def _overview(
+    result: CheckResult, gov: pd.DataFrame, omitted: int, outcome: str, no_forces: Sequence[str]
+) -> str:
     r = result.results
     status = r["status"].astype(str)
     counts = [
@@ -169,7 +176,8 @@ def _overview(result: CheckResult, gov: pd.DataFrame, omitted: int, outcome: str
         "<h2>Overview</h2>"
         + (f"<p><b>{escape(outcome)}</b></p>" if outcome else "")
         + f"<table>{rows}</table>"
-        "<h3>Members nearest failure</h3>"
+        + _no_forces(no_forces)
+        + "<h3>Members nearest failure</h3>"
         "<table><tr><th>member</th><th>segment</th><th>load combination</th><th>Lu [m]</th>"
         "<th>factor</th><th>Mr [kN·m]</th><th>utilization</th></tr>"
         f"{nearest}</table>"
@@ -184,6 +192,18 @@ def _overview(result: CheckResult, gov: pd.DataFrame, omitted: int, outcome: str
         + flag_rows
         + "</table>"
         + more
+    )
+
+
+def _no_forces(members: Sequence[str]) -> str:
+    """The members without force rows, named (the first few) so that none is skipped silently."""
+    if not members:
+        return ""
+    rest = len(members) - MAX_LISTED
+    more = f" and {rest} more (summary.json lists them all)" if rest > 0 else ""
+    return (
+        f"<p class='over'>NO FORCES: {len(members)} member(s) not checked: "
+        f"{escape(', '.join(members[:MAX_LISTED]))}{more}</p>"
     )
 
 

@@ -214,7 +214,9 @@ def test_a_run_that_checks_nothing_is_not_shown_to_pass(tmp_path):
     (strut,) = _info(tmp_path / "a")["members without forces (not checked)"]
 
     out = tmp_path / "b"
-    result = CliRunner().invoke(main, ["check", str(folder), "--out", str(out), "--member", strut])
+    result = CliRunner().invoke(
+        main, ["check", str(folder), "--out", str(out), "--member", strut, "--report"]
+    )
     assert result.exit_code == 1, result.output
     info = _info(out)
     assert info["pairs checked"] == 0
@@ -223,6 +225,9 @@ def test_a_run_that_checks_nothing_is_not_shown_to_pass(tmp_path):
     assert "nothing was checked" in info["result"]["reasons"][0]
     assert f"NO FORCES      : 1 member(s) not checked: {strut}" in result.output
     assert "NOT SHOWN TO PASS: nothing was checked" in result.output
+    report = (out / "report.html").read_text(encoding="utf-8")
+    assert "Result: NOT SHOWN TO PASS: nothing was checked" in report
+    assert f"NO FORCES: 1 member(s) not checked: {strut}" in report
 
 
 # --- Every output of a run describes the same filtered set ------------------------------------
