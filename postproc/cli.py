@@ -26,7 +26,12 @@ from flangewise.postproc.exports import CAUTION
 from flangewise.postproc.files import write_atomic
 from flangewise.postproc.members_view import members_text, segment_rows
 from flangewise.postproc.names import UnknownName, unknown_names_message
-from flangewise.postproc.provenance import finish_hashing, provenance, start_hashing
+from flangewise.postproc.provenance import (
+    InputFile,
+    finish_hashing,
+    provenance,
+    start_hashing,
+)
 from flangewise.postproc.report import build_report
 from flangewise.postproc.summary import model_summary
 from flangewise.readers import InputError, Model, load_model, read_settings
@@ -269,7 +274,7 @@ class _Run:
     report: bool = False
 
 
-def _load_and_hash(run: _Run) -> tuple[Model, list[Any]]:
+def _load_and_hash(run: _Run) -> tuple[Model, list[InputFile]]:
     """Load the model while its input files are hashed alongside; return both."""
     hashing = start_hashing(read_settings(run.model, run.settings_file))
     try:
@@ -284,7 +289,8 @@ def _load_and_hash(run: _Run) -> tuple[Model, list[Any]]:
 def _members_of_run(result: CheckResult, wanted: Sequence[str]) -> list[str]:
     """The members ``--member`` names, each once, in the order given; every one must exist."""
     known = [str(m) for m in result.layout.members.table.index]
-    unknown = [m for m in dict.fromkeys(wanted) if m not in set(known)]
+    present = set(known)
+    unknown = [m for m in dict.fromkeys(wanted) if m not in present]
     if unknown:
         _bad_parameter(
             "members_wanted",
