@@ -32,9 +32,11 @@ from scipy.spatial import cKDTree
 FY_RANGE_MPA = (150.0, 1000.0)
 
 #: Node coordinates farther than this from the origin along any axis [mm] are refused (common
-#: practice: 10 km holds any building or plant model; a larger number is a units mistake or a
-#: corrupted cell, and would swamp the 1 mm node-coincidence test in float rounding).
-COORDINATE_LIMIT_MM = 1.0e7
+#: practice: 10 000 km, the extent of map-grid coordinates such as UTM northings, which some
+#: models are drawn in; float64 still resolves 1e-6 mm there, far below the 1 mm node
+#: coincidence. A larger number is a corrupted cell or a units mistake, and overflows the
+#: geometry: squared distances and the coincident-node search).
+COORDINATE_LIMIT_MM = 1.0e10
 
 #: Plate dimensions of rolled and welded I-sections [mm], (smallest, largest) (common practice:
 #: the lightest rolled sections are about 80 mm deep with 46 mm flanges, the heaviest rolled and
@@ -255,7 +257,7 @@ def _nodes(df: pd.DataFrame, settings: Settings, problems: ProblemList) -> pd.Da
             rows,
             file,
             their,
-            f"a coordinate within ±{lim:g} mm (10 km) once converted from "
+            f"a coordinate within ±{lim:g} mm (10 000 km) once converted from "
             f"'{settings.units.length}'",
             f"[units] length (now '{settings.units.length}')",
             problems,

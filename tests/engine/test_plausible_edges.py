@@ -1,6 +1,6 @@
 """Values at the edges of what the readers accept check without a numpy warning or a crash.
 
-The readers refuse coordinates beyond 10 km, plates outside the common-practice ranges of
+The readers refuse coordinates beyond 10 000 km, plates outside the common-practice ranges of
 ``readers/load.py`` and moments beyond 1e7 kN·m; everything inside must run through the engine
 cleanly (no division by zero, no overflow). Invented models; m and kN·m as in ``conftest.py``.
 """
@@ -22,12 +22,13 @@ EDGE_SECTIONS = {
 @pytest.mark.parametrize("section", sorted(EDGE_SECTIONS))
 @pytest.mark.parametrize("moment", [1.0e-6, 9.9e6])
 def test_model_at_the_edges_of_the_ranges_checks_cleanly(frame, section, moment):
-    # A two-span beam 9.99 km from the origin, braced at midspan of each span.
+    # A two-span beam 9 990 km from the origin (map-grid coordinates near the limit), braced at
+    # midspan of each span.
     f = frame()
     f.sections = dict(EDGE_SECTIONS)
-    x0 = 9990.0
+    x0 = 9.99e6
     for i in range(5):
-        f.node(f"N{i}", x0 + 2.0 * i, -9990.0, 9990.0)
+        f.node(f"N{i}", x0 + 2.0 * i, -9.99e6, 9.99e6)
     for i in range(4):
         f.element(f"E{i}", f"N{i}", f"N{i + 1}", section=section)
     f.support("N0").support("N2").support("N4").brace("N1", "top").brace("N3", "bottom")

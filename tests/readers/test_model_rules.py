@@ -132,9 +132,9 @@ def test_restrains_accepts_any_text_and_carries_it_unchanged(model, text):
 # ---- plausibility ranges ------------------------------------------------------------------------
 
 
-@pytest.mark.parametrize("value", ["inf", "1e300", "1.2e29", "-20000"])
+@pytest.mark.parametrize("value", ["inf", "1e300", "1.2e29", "-2e7"])
 def test_implausible_node_coordinate_is_one_problem(model, value):
-    # -20000 m is 20 km from the origin: beyond the 10 km any building or plant model needs.
+    # -2e7 m is 20 000 km from the origin: beyond even map-grid coordinates (10 000 km).
     model.set("nodes", row=3, column="x", value=value)  # N2, shared by E1 and E2
     error = model.load_error()
     # The elements at N2 and their forces add nothing: one defect, one problem.
@@ -192,6 +192,13 @@ def test_moment_beyond_any_section_is_a_units_problem(model):
     error = model.load_error()
     assert problems_of(error) == [("forces.csv", 3, "M")]
     assert "[units] moment" in error.problems[0].expected
+
+
+def test_map_grid_coordinates_are_accepted(model):
+    # A model drawn in map-grid coordinates (a northing of 7 200 km) is a real model.
+    for row in model.tables["nodes"][1:]:
+        row[2] = "7200000.0"
+    assert model.load().nodes["y"].tolist() == [7.2e9] * 3
 
 
 def test_break_at_an_unknown_node_names_the_settings_key(model):
