@@ -1,15 +1,32 @@
-"""Reading one CSV table: the user's column names in, ours out; values checked whole-column."""
+"""Reading one CSV table strictly: the user's column names in, ours out, every cell read exactly.
+
+pyarrow's CSV reader parses the file (multi-threaded). It refuses any row whose number of fields
+differs from the header's, whether its columns are mapped or not; such rows are then located one
+by one and reported with their spreadsheet row. Identifier columns are read as text exactly as
+written, blanks around them stripped: "007", "7" and "7.0" are three ids, "NA" or "null" is a
+name, and only an empty cell is missing. Numeric columns are read as float64. When a numeric
+column holds anything but finite numbers, its cells are read again as text and parsed here, so
+that each bad cell is reported with its row and its text as written; :func:`numeric` reports
+them. Empty lines keep their row (so row numbers stay those of a spreadsheet); an empty line
+inside a table is a problem, empty lines at the end of the file are ignored.
+"""
 
 from __future__ import annotations
 
 import csv
-import re
+import io
+import mmap
+import os
+from collections.abc import Iterator
+from contextlib import contextmanager
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 import pandas as pd
 import pyarrow as pa
 import pyarrow.compute as pc
+import pyarrow.csv as pcsv
 from flangewise.readers.errors import ProblemList
 from flangewise.readers.settings import COLUMNS, OPTIONAL_TABLES, Settings
 
@@ -26,6 +43,46 @@ ID_COLUMNS: dict[str, tuple[str, ...]] = {
 #: Tables big enough that identifiers are stored as categories rather than text.
 CATEGORY_TABLES = frozenset({"forces"})
 
+#: Rows with the wrong number of fields (or empty lines) listed per table; the rest are counted.
+MAX_LISTED_ROWS = 5
+
+#: What a required table without data rows lacks.
+NO_DATA_ROWS = "data rows below the header: the file has no data rows"
+
+#: Longest row text quoted in a problem.
+MAX_QUOTED = 120
+
+#: Where :func:`read_table` leaves the unparsed cells of numeric columns in ``DataFrame.attrs``.
+UNPARSED_KEY = "flangewise_unparsed"
+
+#: A plain decimal number; ``{d}`` is the decimal mark. No thousands separators, no words.
+_NUMBER = r"^[+-]?([0-9]+({d}[0-9]*)?|{d}[0-9]+)([eE][+-]?[0-9]+)?$"
+
+#: Words a parser may take for a non-finite number (after an optional sign, any case).
+_NON_FINITE_WORDS = frozenset({"nan", "inf", "infinity"})
+
+
+class Unparsed:
+    """The cells of one numeric column that hold no finite number, as the file wrote them.
+
+    Attributes:
+        records: record numbers (0 = first data row), ascending.
+        texts: each cell's text exactly as in the file.
+        expected: per cell, "a number" (text that is no number) or "a finite number".
+    """
+
+    __slots__ = ("expected", "records", "texts")
+
+    def __init__(self, records: np.ndarray, texts: np.ndarray, expected: np.ndarray) -> None:
+        self.records = records
+        self.texts = texts
+        self.expected = expected
+
+    def __deepcopy__(self, memo: dict[int, Any]) -> Unparsed:
+        # pandas deep-copies ``attrs`` into every frame or column derived from a table; this
+        # record never changes, so all of them can share it (a copy could hold millions of cells).
+        return self
+
 
 def spreadsheet_rows(index: pd.Index | np.ndarray) -> np.ndarray:
     """Return spreadsheet row numbers for record labels (header = row 1, first record = row 2)."""
@@ -35,146 +92,470 @@ def spreadsheet_rows(index: pd.Index | np.ndarray) -> np.ndarray:
 def read_table(settings: Settings, table: str, problems: ProblemList) -> pd.DataFrame | None:
     """Read one table into our column names, or record why it cannot be read.
 
-    Identifier columns come back as text (as categories for the forces table), stripped of
-    surrounding blanks, empty cells missing; other columns as the parser found them (numbers are
-    checked by :func:`numeric`). The index holds the record number (0 for the first data row).
+    Identifier columns come back as text (object dtype; categories for the forces table),
+    stripped of surrounding blanks, empty cells missing. Numeric columns come back as float64,
+    NaN where a cell is empty or holds no finite number; the latter are kept in
+    ``df.attrs[UNPARSED_KEY]`` for :func:`numeric` to report. The index holds the record number
+    (0 for the first data row).
 
     Returns:
-        The table, an empty table for an absent optional file, or ``None`` when the file or a
-        required column is missing (recorded in ``problems``).
+        The table, an empty table for an absent optional file that the settings do not name, or
+        ``None`` when the table cannot be used (every reason recorded in ``problems``).
     """
     path = settings.path(table)
     name = settings.files[table]
     if not path.is_file():
-        if table in OPTIONAL_TABLES:
+        if table in OPTIONAL_TABLES and table not in settings.named_files:
             return pd.DataFrame({c: pd.Series(dtype=object) for c, req in COLUMNS[table] if req})
-        problems.add(name, None, None, None, f"the {table} table as a file at {path}")
-        return None
-    header = _map_header(settings, table, path, problems)
-    if header is None:
-        return None
-    usecols, width = header
-    ids = [ours for ours in usecols.values() if ours in ID_COLUMNS[table]]
-    if table in CATEGORY_TABLES:
-        # Big table: parse with inferred types (the parser's fast path) and encode ids afterwards;
-        # forcing text dtypes while parsing costs several times the whole read.
-        dtype = None
-    else:
-        dtype = {theirs: str for theirs, ours in usecols.items() if ours in ids}
-    try:
-        df = pd.read_csv(
-            path,
-            sep=settings.delimiter,
-            decimal=settings.decimal,
-            # Naming the columns costs the parser its fastest path; only do it when there are
-            # columns to skip.
-            usecols=list(usecols) if len(usecols) < width else None,
-            dtype=dtype,
-            encoding="utf-8-sig" if _has_bom(path) else "utf-8",
+        problems.add(
+            name,
+            None,
+            None,
+            None,
+            f"the {table} table as a file at {path} (mapped by [files] {table})",
         )
-    except (pd.errors.ParserError, UnicodeDecodeError, csv.Error, ValueError) as exc:
-        _unreadable(name, width, settings, exc, problems)
         return None
-    df = df.rename(columns=usecols)[list(usecols.values())]
-    for col in ids:
-        if table in CATEGORY_TABLES:
-            df[col] = _categorical(df[col])
-        else:
-            text = df[col].astype("str").str.strip()
-            df[col] = text.where(df[col].notna() & (text != ""))
-    return df
+    with _file_bytes(path) as data:
+        return _read(settings, table, data, problems)
 
 
-def _map_header(
-    settings: Settings, table: str, path: Path, problems: ProblemList
-) -> tuple[dict[str, str], int] | None:
-    """Return ({their column: our column}, number of columns in the file), or ``None``.
+@contextmanager
+def _file_bytes(path: Path) -> Iterator[bytes | mmap.mmap]:
+    """Yield the file's bytes, memory-mapped (no copy of a big forces file)."""
+    with path.open("rb") as fh:
+        if os.fstat(fh.fileno()).st_size == 0:
+            yield b""
+            return
+        data = mmap.mmap(fh.fileno(), 0, access=mmap.ACCESS_READ)
+    try:
+        yield data
+    finally:
+        try:
+            data.close()
+        except BufferError:
+            pass  # an Arrow buffer still refers to it: it closes when that is collected
 
-    ``None`` when the header cannot be read or a required column is missing (recorded).
+
+def _read(
+    settings: Settings, table: str, data: bytes | mmap.mmap, problems: ProblemList
+) -> pd.DataFrame | None:
+    name = settings.files[table]
+    start = 3 if data[:3] == b"\xef\xbb\xbf" else 0
+    end = _content_end(data)
+    if end <= start:
+        problems.add(name, None, None, None, "a header row naming the columns; the file is empty")
+        return None
+    if not _is_utf8_text(data, end, name, problems):
+        return None
+    header, header_end = _header(data, start, end, settings.delimiter)
+    mapped = _map_columns(settings, table, header, problems)
+    if mapped is None:
+        return None
+    if header_end >= end:
+        if table in OPTIONAL_TABLES:
+            return pd.DataFrame({c: pd.Series(dtype=object) for c in mapped.values()})
+        problems.add(name, None, None, None, NO_DATA_ROWS)
+        return None
+    source = _Source(pa.py_buffer(data).slice(0, end), len(header), settings)
+    read = _parse(source, table, mapped, name, problems)
+    if read is None:
+        return None
+    arrow, as_text = read
+    return _frame(source, table, mapped, arrow, as_text, name, problems)
+
+
+def _content_end(data: bytes | mmap.mmap) -> int:
+    """Return the end of the last line holding anything but blanks (empty last lines are fine)."""
+    end = len(data)
+    while end > 0:
+        while end > 0 and data[end - 1] in b"\r\n":
+            end -= 1
+        newline = data.rfind(b"\n", 0, end)
+        # A "\r" alone ends a line too; look for one only after the last "\n" (no full scan).
+        start = max(newline, data.rfind(b"\r", max(newline, 0), end)) + 1
+        if data[start:end].strip(b" \t"):
+            break
+        end = start
+    return end
+
+
+def _is_utf8_text(data: bytes | mmap.mmap, end: int, name: str, problems: ProblemList) -> bool:
+    """Check the whole file is UTF-8 text (not a binary file, not another encoding)."""
+    expected = "UTF-8 text (save or export the table as CSV in UTF-8)"
+    if data.find(b"\x00", 0, end) >= 0:
+        problems.add(name, None, None, None, f"{expected}; this looks like a binary file")
+        return False
+    whole = pa.py_buffer(data).slice(0, end)
+    offsets = pa.py_buffer(np.array([0, end], dtype=np.int64))
+    try:
+        # One value holding the whole file: the cast validates UTF-8 in compiled code.
+        pa.Array.from_buffers(pa.large_binary(), 1, [None, offsets, whole]).cast(pa.large_string())
+        return True
+    except pa.ArrowInvalid:
+        pass
+    raw = bytes(data[:end])
+    try:
+        raw.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        line = raw.count(b"\n", 0, exc.start) + 1
+        first = raw.rfind(b"\n", 0, exc.start) + 1
+        last = raw.find(b"\n", exc.start)
+        text = raw[first : last if last >= 0 else len(raw)].rstrip(b"\r")
+        problems.add(name, line, None, _quote(text.decode("utf-8", "backslashreplace")), expected)
+    return False
+
+
+def _header(data: bytes | mmap.mmap, start: int, end: int, delimiter: str) -> tuple[list[str], int]:
+    """Return the header row's fields as written (quotes resolved) and where its line ends."""
+    newline = data.find(b"\n", start, end)
+    stop = end if newline < 0 else newline
+    carriage = data.find(b"\r", start, stop)  # only within the first line: no full scan
+    stop = stop if carriage < 0 else carriage
+    line = bytes(data[start:stop]).decode("utf-8")
+    return next(csv.reader(io.StringIO(line), delimiter=delimiter), []), stop
+
+
+def _map_columns(
+    settings: Settings, table: str, header: list[str], problems: ProblemList
+) -> dict[int, str] | None:
+    """Return {position of the file column: our column}, or ``None`` after recording why not.
+
+    Names are compared without surrounding blanks. A mapped name the header holds twice is a
+    problem (which one is meant?); unmapped columns may repeat.
     """
     name = settings.files[table]
-    mapping = settings.columns[table]
-    try:
-        header = pd.read_csv(path, sep=settings.delimiter, nrows=0, encoding="utf-8-sig")
-    except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError, csv.Error) as exc:
-        problems.add(name, 1, None, None, f"a CSV header row ({exc})")
-        return None
-    present = {str(c).strip(): str(c) for c in header.columns}
-    usecols: dict[str, str] = {}
-    missing = False
+    names = [h.strip() for h in header]
+    where: dict[str, list[int]] = {}
+    for i, h in enumerate(names):
+        where.setdefault(h, []).append(i)
+    mapped: dict[int, str] = {}
+    ok = True
     for ours, required in COLUMNS[table]:
-        theirs = mapping[ours]
-        if theirs in present:
-            usecols[present[theirs]] = ours
-        elif required:
-            missing = True
+        theirs = settings.columns[table][ours]
+        key = f"(mapped by [columns.{table}] {ours})"
+        found = where.get(theirs.strip(), [])
+        if len(found) > 1:
+            ok = False
+            places = ", ".join(str(i + 1) for i in found)
             problems.add(
                 name,
                 1,
                 theirs,
                 None,
-                f"a column '{theirs}' (our '{ours}'); the header has {list(present)}",
+                f"the column '{theirs.strip()}' once {key}; the header has it in columns "
+                f"{places} (rename the others)",
             )
-    return None if missing else (usecols, len(header.columns))
+        elif found:
+            mapped[found[0]] = ours
+        elif required:
+            ok = False
+            problems.add(
+                name, 1, theirs, None, f"a column '{theirs}' {key}; the header has {names}"
+            )
+    return mapped if ok else None
 
 
-def _unreadable(
-    name: str, width: int, settings: Settings, exc: Exception, problems: ProblemList
-) -> None:
-    """Record why the parser gave up, with the row where it can be found in its message."""
-    text = " ".join(str(exc).split())
-    ragged = re.search(r"Expected (\d+) fields in line (\d+), saw (\d+)", text)
-    if ragged:
+class _Source:
+    """One file's bytes and dialect, to parse as often as the careful paths need."""
+
+    def __init__(self, buffer: pa.Buffer, width: int, settings: Settings) -> None:
+        self.buffer = buffer
+        self.names = [f"c{i}" for i in range(width)]
+        self.delimiter = settings.delimiter
+        self.decimal = settings.decimal
+
+    def read(
+        self,
+        types: dict[int, pa.DataType],
+        *,
+        threads: bool = True,
+        newlines_in_values: bool = False,
+        handler: Any = None,
+    ) -> pa.Table:
+        """Parse the columns at the positions in ``types`` (header skipped, empty lines kept)."""
+        return pcsv.read_csv(
+            pa.BufferReader(self.buffer),
+            read_options=pcsv.ReadOptions(
+                column_names=self.names, skip_rows=1, use_threads=threads
+            ),
+            parse_options=pcsv.ParseOptions(
+                delimiter=self.delimiter,
+                ignore_empty_lines=False,
+                newlines_in_values=newlines_in_values,
+                invalid_row_handler=handler,
+            ),
+            convert_options=pcsv.ConvertOptions(
+                include_columns=[self.names[i] for i in types],
+                column_types={self.names[i]: t for i, t in types.items()},
+                # Only an empty cell is missing: "NA", "null" or "nan" are text here.
+                null_values=[""],
+                strings_can_be_null=False,
+                decimal_point=self.decimal,
+            ),
+        )
+
+
+def _parse(
+    source: _Source, table: str, mapped: dict[int, str], name: str, problems: ProblemList
+) -> tuple[pa.Table, bool] | None:
+    """Parse the mapped columns; return (table, whether numbers were read as text) or ``None``.
+
+    Numbers are read as float64 first; a cell the parser cannot convert sends every numeric column
+    of this table to text, parsed by :func:`_parse_numbers`.
+    """
+    ids = ID_COLUMNS[table]
+    as_text = False
+    newlines = False
+    while True:
+        types = {
+            i: pa.string() if ours in ids or as_text else pa.float64() for i, ours in mapped.items()
+        }
+        try:
+            return source.read(types, newlines_in_values=newlines), as_text
+        except pa.ArrowInvalid as exc:
+            text = str(exc)
+            ragged = "Expected" in text and "columns, got" in text
+            if ragged and _report_ragged(source, name, problems):
+                return None
+            if ragged and not newlines:
+                # No row is ragged when read in order: a quoted line break split the parallel
+                # read. Read again with line breaks allowed inside values.
+                newlines = True
+            elif "conversion error" in text and not as_text:
+                as_text = True
+            else:
+                problems.add(
+                    name,
+                    None,
+                    None,
+                    None,
+                    f"a CSV table readable with the delimiter '{source.delimiter}' (check [csv] "
+                    "delimiter, and that every opening double quote is closed)",
+                )
+                return None
+
+
+def _report_ragged(source: _Source, name: str, problems: ProblemList) -> bool:
+    """Record the rows whose number of fields differs from the header's; return whether any."""
+    width = len(source.names)
+    listed: list[tuple[int, int, str]] = []
+    count = 0
+
+    def note(row: Any) -> str:
+        nonlocal count
+        count += 1
+        if len(listed) < MAX_LISTED_ROWS:
+            listed.append((row.number, row.actual_columns, row.text))
+        return "skip"
+
+    # In order, one thread: the parser then knows each row's number (header = row 1).
+    source.read({0: pa.string()}, threads=False, newlines_in_values=True, handler=note)
+    for row, got, text in listed:
+        problems.add(name, row, None, _quote(text), _ragged_expected(width, got, text, source))
+    problems.more += count - len(listed)
+    return count > 0
+
+
+def _ragged_expected(width: int, got: int, text: str, source: _Source) -> str:
+    """Say how many fields a row needs, how many it has, and the likely causes."""
+    d = source.delimiter
+    if not text.strip():
+        causes = "an empty line holding only blanks (delete it)"
+    elif got > width:
+        causes = f"a '{d}' inside an unquoted name (put the name in double quotes)"
+        if d == ",":
+            causes = (
+                "a decimal comma splitting a number in two (set [csv] delimiter and decimal "
+                f"to the file's), or {causes}"
+            )
+    else:
+        causes = (
+            "a missing field (each row needs a place for every column, even an empty one), "
+            "or a line break inside an unquoted name"
+        )
+    return f"{width} fields as in the header row, but this row has {got}: likely {causes}"
+
+
+def _quote(text: str) -> str:
+    return text if len(text) <= MAX_QUOTED else text[: MAX_QUOTED - 1] + "…"
+
+
+def _frame(
+    source: _Source,
+    table: str,
+    mapped: dict[int, str],
+    arrow: pa.Table,
+    as_text: bool,
+    name: str,
+    problems: ProblemList,
+) -> pd.DataFrame | None:
+    """Turn the parsed columns into our table; ``None`` after recording empty rows."""
+    position = {ours: i for i, ours in mapped.items()}
+    order = [ours for ours, _ in COLUMNS[table] if ours in position]
+    columns: dict[str, Any] = {}
+    empties: dict[str, Any] = {}
+    unparsed: dict[str, Unparsed] = {}
+    needs_text = []
+    for ours in order:
+        col = arrow.column(source.names[position[ours]])
+        if ours in ID_COLUMNS[table]:
+            if table in CATEGORY_TABLES:
+                columns[ours], empties[ours] = _categorical(col)
+            else:
+                columns[ours], empties[ours] = _text(col)
+        elif as_text:
+            columns[ours], empties[ours], unparsed[ours] = _parse_numbers(col, source.decimal)
+        elif _all_finite(col):
+            columns[ours] = col.to_numpy()
+            empties[ours] = col
+        else:
+            needs_text.append(ours)
+    if needs_text:
+        # Infinities or NaN in the file: read those columns again as text to quote each cell.
+        text = source.read({position[c]: pa.string() for c in needs_text})
+        for ours in needs_text:
+            col = text.column(source.names[position[ours]])
+            columns[ours], empties[ours], unparsed[ours] = _parse_numbers(col, source.decimal)
+    n = _rows_with_values(empties, arrow.num_rows, name, problems)
+    if n is None:
+        return None
+    if n == 0 and table not in OPTIONAL_TABLES:
+        problems.add(name, None, None, None, NO_DATA_ROWS)
+        return None
+    df = pd.DataFrame(
+        {c: (v[:n] if len(v) != n else v) for c, v in columns.items()},
+        index=pd.RangeIndex(n),
+        copy=False,
+    )
+    kept = {c: u for c, u in unparsed.items() if len(u.records)}
+    if kept:
+        df.attrs[UNPARSED_KEY] = kept
+    return df
+
+
+def _rows_with_values(
+    empties: dict[str, Any], rows: int, name: str, problems: ProblemList
+) -> int | None:
+    """Return how many rows to keep, or ``None`` after recording empty rows inside the table.
+
+    Empty rows at the end are dropped.
+    ``empties`` holds per column either an Arrow column (empty = missing) or a boolean array.
+    A row counts as empty when every column read is empty: an empty line, or only empty cells.
+    """
+    if rows == 0:
+        return 0
+    # Cheap first: a column with no empty cell rules every row out without building masks.
+    for e in empties.values():
+        if isinstance(e, pa.ChunkedArray) and e.null_count == 0:
+            return rows
+        if isinstance(e, np.ndarray) and not e.any():
+            return rows
+    empty = np.ones(rows, dtype=bool)
+    for e in empties.values():
+        empty &= e if isinstance(e, np.ndarray) else pc.is_null(e).to_numpy(zero_copy_only=False)
+    filled = np.flatnonzero(~empty)
+    keep = int(filled[-1]) + 1 if len(filled) else 0
+    inside = np.flatnonzero(empty[:keep])
+    for record in inside[:MAX_LISTED_ROWS].tolist():
         problems.add(
             name,
-            int(ragged.group(2)),
+            record + 2,
             None,
-            f"{ragged.group(3)} fields",
-            f"{width} fields as in the header (delimiter '{settings.delimiter}'; a decimal "
-            "comma in a comma-delimited file splits numbers: see [csv] in the settings)",
+            "",
+            "a row of values, not an empty line (delete it; empty lines may only end the file)",
         )
-    else:
-        problems.add(name, None, None, None, f"a readable CSV file ({text})")
+    problems.more += max(0, len(inside) - MAX_LISTED_ROWS)
+    return None if len(inside) else keep
 
 
-def _has_bom(path: Path) -> bool:
-    with path.open("rb") as fh:
-        return fh.read(3) == b"\xef\xbb\xbf"
+def _all_finite(col: pa.ChunkedArray) -> bool:
+    """Whether every non-missing value of a float column is finite."""
+    finite = pc.sum(pc.is_finite(col)).as_py() or 0
+    return finite == len(col) - col.null_count
 
 
-def _categorical(column: pd.Series) -> pd.Categorical:
-    """Encode an id column as a categorical with stripped, non-empty text labels.
+def _text(col: pa.ChunkedArray) -> tuple[pd.Series, np.ndarray]:
+    """Return an id column as object text, blanks stripped, empty cells missing; and the empties."""
+    stripped = pc.utf8_trim_whitespace(col)
+    empty = pc.equal(stripped, "").to_numpy(zero_copy_only=False)
+    values = stripped.to_numpy(zero_copy_only=False)
+    values[empty] = None
+    return pd.Series(values, dtype=object), empty
 
-    Arrow-backed text is dictionary-encoded by pyarrow (no Python string per row); other columns
-    (ids the parser took for numbers, object text) go through ``pandas.factorize``. Integral
-    numbers get integer labels ("101", not "101.0").
+
+def _categorical(col: pa.ChunkedArray) -> tuple[pd.Categorical, np.ndarray]:
+    """Encode a text id column as a categorical of stripped, non-empty labels.
+
+    Encoded by pyarrow (faster than having the CSV parser build dictionaries); only the dictionary
+    (one entry per distinct text) is stripped and compared: no Python string per row. Labels equal
+    after stripping (" B1" and "B1") share one code; a blank one is missing.
     """
-    if isinstance(column.dtype, pd.StringDtype) and column.dtype.storage == "pyarrow":
-        encoded = pc.dictionary_encode(pa.array(column.array))
-        if isinstance(encoded, pa.ChunkedArray):
-            encoded = encoded.combine_chunks()
-        codes = pc.fill_null(encoded.indices, -1).to_numpy(zero_copy_only=False)
-        uniques = pd.Index(encoded.dictionary.to_pylist(), dtype=object)
+    if col.num_chunks == 0:
+        codes = np.zeros(0, dtype=np.int32)
+        labels = np.zeros(0, dtype=object)
     else:
-        codes, uniques = pd.factorize(column)
-        uniques = pd.Index(uniques)
-    if pd.api.types.is_float_dtype(uniques.dtype):
-        integral = np.isfinite(uniques) & (uniques == np.round(uniques))
-        labels = pd.Index(
-            np.where(integral, uniques.astype(np.int64).astype(str), uniques.astype(str)),
-            dtype=object,
-        )
-    else:
-        labels = pd.Index(uniques.astype(str).str.strip(), dtype=object)
+        encoded = pc.dictionary_encode(col).unify_dictionaries().combine_chunks()
+        indices = encoded.indices  # never null: empty cells are read as ""
+        codes = indices.to_numpy(zero_copy_only=indices.null_count == 0)
+        labels = np.asarray(pc.utf8_trim_whitespace(encoded.dictionary).to_pylist(), dtype=object)
     codes = np.asarray(codes, dtype=np.int32)
-    if labels.is_unique and not (labels == "").any():
-        return pd.Categorical.from_codes(codes, categories=labels)
-    # Labels equal after stripping (" B1" and "B1") share one code; blank labels mean "missing".
-    merged, remap = np.unique(np.asarray(labels, dtype=object), return_inverse=True)
+    if len(set(labels.tolist())) == len(labels) and not (labels == "").any():
+        cat = pd.Categorical.from_codes(codes, categories=pd.Index(labels, dtype=object))
+        return cat, codes < 0
+    merged, remap = np.unique(labels, return_inverse=True)
     keep = merged != ""
     renumber = np.where(keep, np.cumsum(keep) - 1, -1)[remap].astype(np.int32)
     codes = np.where(codes >= 0, renumber[np.maximum(codes, 0)], -1).astype(np.int32)
-    return pd.Categorical.from_codes(codes, categories=pd.Index(merged[keep], dtype=object))
+    cat = pd.Categorical.from_codes(codes, categories=pd.Index(merged[keep], dtype=object))
+    return cat, codes < 0
+
+
+def _parse_numbers(
+    col: pa.ChunkedArray | pa.Array, decimal: str
+) -> tuple[np.ndarray, np.ndarray, Unparsed]:
+    """Parse numbers written as text; return (values, empty cells, cells holding no finite number).
+
+    Accepted: optional sign, digits with the decimal mark ``decimal``, optional exponent, blanks
+    around. Anything else (words, "TRUE", thousands separators, the other decimal mark, "inf",
+    "nan", a number too big for float64) is NaN in the values and listed in the result.
+    """
+    stripped = pc.utf8_trim_whitespace(col)
+    empty = pc.equal(stripped, "").to_numpy(zero_copy_only=False)
+    pattern = _NUMBER.format(d=r"\." if decimal == "." else decimal)
+    ok = pc.match_substring_regex(stripped, pattern)
+    plain = stripped if decimal == "." else pc.replace_substring(stripped, decimal, ".")
+    values = pc.cast(pc.if_else(ok, plain, pa.scalar(None, pa.string())), pa.float64())
+    values = np.asarray(values.to_numpy(zero_copy_only=False), dtype=np.float64)
+    bad = ~np.isfinite(values) & ~empty
+    records = np.flatnonzero(bad)
+    texts = np.asarray(pc.take(col, records).to_pylist(), dtype=object)
+    words = np.asarray(
+        [t.strip().lstrip("+-").lower() for t in pc.take(stripped, records).to_pylist()],
+        dtype=object,
+    )
+    was_number = np.asarray(pc.take(ok, records).to_pylist(), dtype=bool)
+    non_finite = was_number | np.isin(words, list(_NON_FINITE_WORDS))
+    expected = np.where(non_finite, "a finite number", "a number").astype(object)
+    return values, empty, Unparsed(records.astype(np.int64), texts, expected)
+
+
+def _unparsed_cells(df: pd.DataFrame, column: str) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Return (positions in ``df``, texts, expected) of the column's cells holding no number.
+
+    Only cells of rows still in ``df`` count (a caller may have filtered the table).
+    """
+    info = df.attrs.get(UNPARSED_KEY, {}).get(column)
+    if info is None or len(df) == 0:
+        none = np.zeros(0, dtype=np.int64)
+        return none, np.zeros(0, dtype=object), np.zeros(0, dtype=object)
+    if df.index.is_monotonic_increasing:
+        labels = np.asarray(df.index, dtype=np.int64)
+        pos = np.minimum(np.searchsorted(labels, info.records), len(labels) - 1)
+        hit = labels[pos] == info.records
+    else:
+        pos = df.index.get_indexer(info.records)
+        hit = pos >= 0
+    return pos[hit], info.texts[hit], info.expected[hit]
 
 
 def numeric(
@@ -186,10 +567,15 @@ def numeric(
     *,
     required: bool = True,
 ) -> pd.Series:
-    """Return ``df[column]`` as float64, noting every empty or non-numeric cell.
+    """Return ``df[column]`` as float64, noting every empty cell and every cell that is no number.
+
+    A cell that is no number (text, "TRUE", "1,5" under a decimal point) is reported with its
+    text exactly as written and "a number" expected; "inf", "nan" or a number too big for float64
+    with "a finite number" expected. Either is NaN in the result.
 
     Args:
-        df: the table (index = record number).
+        df: the table (index = record number), as :func:`read_table` returns it; a column of
+            text (a table made some other way) is parsed here the same way.
         column: our column name.
         file: the file name for messages.
         their_name: the file's own column name for messages.
@@ -197,18 +583,34 @@ def numeric(
         required: whether an empty cell is a problem (optional columns may have gaps).
     """
     s = df[column]
-    if pd.api.types.is_numeric_dtype(s.dtype) and not pd.api.types.is_bool_dtype(s.dtype):
+    if pd.api.types.is_float_dtype(s.dtype) or (
+        pd.api.types.is_integer_dtype(s.dtype) and not pd.api.types.is_bool_dtype(s.dtype)
+    ):
         out = s.astype(np.float64)
-        bad_text = np.zeros(len(s), dtype=bool)
+        pos, texts, expected = _unparsed_cells(df, column)
+        # Non-finite values in a frame not read by read_table carry no text: quote the value.
+        stray = ~np.isfinite(out.to_numpy()) & out.notna().to_numpy()
+        stray[pos] = False
+        if stray.any():
+            extra = np.flatnonzero(stray)
+            pos = np.concatenate([pos, extra])
+            texts = np.concatenate([texts, out.to_numpy()[extra].astype(str).astype(object)])
+            expected = np.concatenate([expected, np.full(len(extra), "a finite number", object)])
+            out = out.where(np.isfinite(out.to_numpy()))
     else:
-        out = pd.to_numeric(s, errors="coerce").astype(np.float64)
-        bad_text = (out.isna() & s.notna()).to_numpy()
-    empty = (s.isna()).to_numpy()
-    if bad_text.any():
-        idx = np.flatnonzero(bad_text)
-        problems.add_many(
-            file, spreadsheet_rows(df.index[idx]), their_name, s.iloc[idx], "a number"
-        )
+        text = ["" if v is None or (isinstance(v, float) and np.isnan(v)) else str(v) for v in s]
+        values, _, info = _parse_numbers(pa.array(text, pa.string()), ".")
+        out = pd.Series(values, index=df.index)
+        pos, texts, expected = info.records, info.texts, info.expected
+    bad = np.zeros(len(s), dtype=bool)
+    bad[pos] = True
+    for wanted in ("a number", "a finite number"):
+        pick = expected == wanted
+        if pick.any():
+            problems.add_many(
+                file, spreadsheet_rows(df.index[pos[pick]]), their_name, texts[pick], wanted
+            )
+    empty = out.isna().to_numpy() & ~bad
     if required and empty.any():
         idx = np.flatnonzero(empty)
         problems.add_many(

@@ -106,9 +106,17 @@ def test_bad_cell_is_quoted_as_written(model):
     assert got == {(5, "1,5", "a number"), (6, " NaN ", "a finite number")}
 
 
+def decimal_commas(model) -> None:
+    """Turn the model into a ';'-delimited file set with decimal commas."""
+    model.settings = '[csv]\ndelimiter = ";"\ndecimal = ","\n'
+    for rows in model.tables.values():
+        for row in rows[1:]:
+            row[:] = [cell.replace(".", ",") for cell in row]
+
+
 def test_decimal_point_in_a_decimal_comma_file_is_not_a_number(model):
     # "1.500" under decimal "," may mean 1500 (a thousands point): never read it as 1.5.
-    model.settings = '[csv]\ndelimiter = ";"\ndecimal = ","\n'
+    decimal_commas(model)
     model.set("nodes", row=3, column="x", value="1.500")
     folder = model.write(delimiter=";")
     with pytest.raises(readers.InputError) as info:
@@ -118,7 +126,7 @@ def test_decimal_point_in_a_decimal_comma_file_is_not_a_number(model):
 
 
 def test_numbers_with_blanks_and_decimal_commas_read_exactly(model):
-    model.settings = '[csv]\ndelimiter = ";"\ndecimal = ","\n'
+    decimal_commas(model)
     model.set("nodes", row=3, column="x", value=" 4,0 ")
     model.set("sections", row=2, column="tf", value="12,75")
     folder = model.write(delimiter=";")
