@@ -116,12 +116,15 @@ def _merge_close(s: np.ndarray, at_node: np.ndarray, group_start: np.ndarray) ->
     if len(s) == 0:
         return s
     gap = np.diff(s)
-    new = group_start.copy()
-    new[1:] |= gap > STATION_MERGE_MM
-    starts = np.flatnonzero(new)
-    cluster = np.cumsum(new) - 1
-    node_s = np.fmax.reduceat(np.where(at_node, s, np.nan), starts)
-    s = np.where(np.isnan(node_s), s[starts], node_s)[cluster]
+    # Stations at one x already are one station: only gaps in (0, tolerance] need merging, and a
+    # clean export has none (no pass over the clusters then).
+    if ((gap > 0.0) & (gap <= STATION_MERGE_MM) & ~group_start[1:]).any():
+        new = group_start.copy()
+        new[1:] |= gap > STATION_MERGE_MM
+        starts = np.flatnonzero(new)
+        cluster = np.cumsum(new) - 1
+        node_s = np.fmax.reduceat(np.where(at_node, s, np.nan), starts)
+        s = np.where(np.isnan(node_s), s[starts], node_s)[cluster]
     falls = np.flatnonzero((np.diff(s) < 0.0) & ~group_start[1:])
     if len(falls):
         # Only where a member bends far along its length can a later element start before the

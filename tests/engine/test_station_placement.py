@@ -129,3 +129,17 @@ def test_rounded_positions_at_nodes_do_not_count_as_extra_inside_stations(frame)
     top = result[result["flange"] == "top"].iloc[0]
     assert top["omega2_end"] == 1.0
     assert "few-stations" in top["flags"]
+
+
+def test_stations_closer_than_the_merge_tolerance_are_one_station(frame):
+    # E1 (4 m) exported with the same midspan station twice, 0.3 mm apart (below the 0.5 mm
+    # merge tolerance of readers/model.py): one x, the moment jumping there as at a node.
+    f = frame()
+    f.node("N1", 0, 0, 3).node("N2", 4, 0, 3)
+    f.element("E1", "N1", "N2")
+    f.support("N1").support("N2")
+    f.moments("E1", "C1", [0.0, 1.0, 2.0, 2.0003, 3.0, 4.0], [0.0, 30.0, 40.0, 40.0, 30.0, 0.0])
+    built = f.build()
+    x, _ = built.diagram(built.layout.segments.table.index[0], "C1")
+    np.testing.assert_array_equal(x * 1000.0, [0.0, 1000.0, 2000.0, 2000.0, 3000.0, 4000.0])
+    assert gradient.distinct_inside_stations(runs_of(built)).tolist() == [3, 3]
