@@ -27,7 +27,7 @@ import pandas as pd
 import pyarrow as pa
 import pyarrow.compute as pc
 import pyarrow.csv as pcsv
-from flangewise.readers.errors import ProblemList
+from flangewise.readers.errors import MAX_PROBLEMS, ProblemList
 from flangewise.readers.settings import COLUMNS, OPTIONAL_TABLES, Settings
 
 #: Columns that hold identifiers (read as text, compared as text).
@@ -62,21 +62,27 @@ _NUMBER = r"^[+-]?([0-9]+({d}[0-9]*)?|{d}[0-9]+)([eE][+-]?[0-9]+)?$"
 _NON_FINITE_WORDS = frozenset({"nan", "inf", "infinity"})
 
 
+#: Where :func:`read_table` leaves what :func:`cell_text` needs to find a cell's text.
+ORIGIN_KEY = "flangewise_origin"
+
+
 class Unparsed:
     """The cells of one numeric column that hold no finite number, as the file wrote them.
 
     Attributes:
         records: record numbers (0 = first data row), ascending.
-        texts: each cell's text exactly as in the file.
-        expected: per cell, "a number" (text that is no number) or "a finite number".
+        texts: each cell's text exactly as in the file (an Arrow array: no Python string per
+            cell, a whole column of "inf" stays cheap).
+        non_finite: per cell, whether it reads as "inf", "nan" or a number too big for float64
+            (else it is text that is no number at all).
     """
 
-    __slots__ = ("expected", "records", "texts")
+    __slots__ = ("non_finite", "records", "texts")
 
-    def __init__(self, records: np.ndarray, texts: np.ndarray, expected: np.ndarray) -> None:
+    def __init__(self, records: np.ndarray, texts: pa.Array, non_finite: np.ndarray) -> None:
         self.records = records
         self.texts = texts
-        self.expected = expected
+        self.non_finite = non_finite
 
     def __deepcopy__(self, memo: dict[int, Any]) -> Unparsed:
         # pandas deep-copies ``attrs`` into every frame or column derived from a table; this
@@ -116,7 +122,30 @@ def read_table(settings: Settings, table: str, problems: ProblemList) -> pd.Data
         )
         return None
     with _file_bytes(path) as data:
-        return _read(settings, table, data, problems)
+        return _read(settings, table, path, data, problems)
+
+
+def cell_text(
+    df: pd.DataFrame, column: str, rows: np.ndarray, limit: int = MAX_PROBLEMS
+) -> list[str]:
+    """Return cells of a table exactly as the file wrote them, for messages.
+
+    Numeric columns hold float64 (``50`` reads as 50.0); a problem should quote ``50``.
+
+    Args:
+        df: a table from :func:`read_table`, possibly filtered (the index holds record numbers).
+        column: our column name.
+        rows: a boolean mask over ``df``'s rows, or positions in ``df``.
+        limit: the most cells returned (the first ones); :meth:`ProblemList.add_many` lists no
+            more than :data:`MAX_PROBLEMS`, so the default is enough for it.
+    """
+    pos = np.asarray(rows)
+    pos = (np.flatnonzero(pos) if pos.dtype == bool else pos.astype(np.int64))[:limit]
+    origin = df.attrs.get(ORIGIN_KEY)
+    if not isinstance(origin, _Origin) or column not in origin.positions:
+        return [str(v) for v in df[column].to_numpy()[pos]]
+    records = np.asarray(df.index[pos], dtype=np.int64)
+    return origin.column(column).take(pa.array(records)).to_pylist()
 
 
 @contextmanager
@@ -137,7 +166,7 @@ def _file_bytes(path: Path) -> Iterator[bytes | mmap.mmap]:
 
 
 def _read(
-    settings: Settings, table: str, data: bytes | mmap.mmap, problems: ProblemList
+    settings: Settings, table: str, path: Path, data: bytes | mmap.mmap, problems: ProblemList
 ) -> pd.DataFrame | None:
     name = settings.files[table]
     start = 3 if data[:3] == b"\xef\xbb\xbf" else 0
@@ -156,12 +185,14 @@ def _read(
             return pd.DataFrame({c: pd.Series(dtype=object) for c in mapped.values()})
         problems.add(name, None, None, None, NO_DATA_ROWS)
         return None
-    source = _Source(pa.py_buffer(data).slice(0, end), len(header), settings)
+    source = _Source(
+        pa.py_buffer(data).slice(0, end), len(header), settings.delimiter, settings.decimal
+    )
     read = _parse(source, table, mapped, name, problems)
     if read is None:
         return None
     arrow, as_text = read
-    return _frame(source, table, mapped, arrow, as_text, name, problems)
+    return _frame(source, path, table, mapped, arrow, as_text, name, problems)
 
 
 def _content_end(data: bytes | mmap.mmap) -> int:
@@ -258,11 +289,11 @@ def _map_columns(
 class _Source:
     """One file's bytes and dialect, to parse as often as the careful paths need."""
 
-    def __init__(self, buffer: pa.Buffer, width: int, settings: Settings) -> None:
+    def __init__(self, buffer: pa.Buffer, width: int, delimiter: str, decimal: str) -> None:
         self.buffer = buffer
         self.names = [f"c{i}" for i in range(width)]
-        self.delimiter = settings.delimiter
-        self.decimal = settings.decimal
+        self.delimiter = delimiter
+        self.decimal = decimal
 
     def read(
         self,
@@ -313,16 +344,14 @@ def _parse(
         try:
             return source.read(types, newlines_in_values=newlines), as_text
         except pa.ArrowInvalid as exc:
-            text = str(exc)
-            ragged = "Expected" in text and "columns, got" in text
-            if ragged and _report_ragged(source, name, problems):
-                return None
-            if ragged and not newlines:
-                # No row is ragged when read in order: a quoted line break split the parallel
-                # read. Read again with line breaks allowed inside values.
-                newlines = True
-            elif "conversion error" in text and not as_text:
+            if "conversion error" in str(exc) and not as_text:
                 as_text = True
+            elif _report_ragged(source, name, problems):
+                return None
+            elif not newlines:
+                # No row is ragged when read in order: a quoted line break split the parallel
+                # read. Read again with line breaks allowed inside values (slower, so not first).
+                newlines = True
             else:
                 problems.add(
                     name,
@@ -349,7 +378,10 @@ def _report_ragged(source: _Source, name: str, problems: ProblemList) -> bool:
         return "skip"
 
     # In order, one thread: the parser then knows each row's number (header = row 1).
-    source.read({0: pa.string()}, threads=False, newlines_in_values=True, handler=note)
+    try:
+        source.read({0: pa.string()}, threads=False, newlines_in_values=True, handler=note)
+    except pa.ArrowInvalid:
+        return False  # not a matter of field counts (e.g. a quote never closed)
     for row, got, text in listed:
         problems.add(name, row, None, _quote(text), _ragged_expected(width, got, text, source))
     problems.more += count - len(listed)
@@ -373,6 +405,11 @@ def _ragged_expected(width: int, got: int, text: str, source: _Source) -> str:
             "a missing field (each row needs a place for every column, even an empty one), "
             "or a line break inside an unquoted name"
         )
+    if '"' in text:
+        causes = (
+            'a double quote opened and never closed (a quote inside a quoted name is written "")'
+            f", or {causes}"
+        )
     return f"{width} fields as in the header row, but this row has {got}: likely {causes}"
 
 
@@ -380,8 +417,45 @@ def _quote(text: str) -> str:
     return text if len(text) <= MAX_QUOTED else text[: MAX_QUOTED - 1] + "…"
 
 
+class _Origin:
+    """Where a table came from: enough to read any of its columns again as text.
+
+    Kept in the table's ``attrs``; the file is read again only when a message quotes a cell.
+    """
+
+    __slots__ = ("decimal", "delimiter", "path", "positions", "texts", "width")
+
+    def __init__(
+        self, path: Path, delimiter: str, decimal: str, width: int, positions: dict[str, int]
+    ) -> None:
+        self.path = path
+        self.delimiter = delimiter
+        self.decimal = decimal
+        self.width = width
+        self.positions = positions
+        self.texts: dict[str, pa.Array] = {}
+
+    def __deepcopy__(self, memo: dict[int, Any]) -> _Origin:
+        return self  # shared by every frame derived from the table, like Unparsed
+
+    def column(self, ours: str) -> pa.Array:
+        """Return one of our columns as the file's text, one value per record."""
+        if ours not in self.texts:
+            with _file_bytes(self.path) as data:
+                self.texts[ours] = self._read_text(data, self.positions[ours])
+        return self.texts[ours]
+
+    def _read_text(self, data: bytes | mmap.mmap, position: int) -> pa.Array:
+        buffer = pa.py_buffer(data).slice(0, _content_end(data))
+        source = _Source(buffer, self.width, self.delimiter, self.decimal)
+        return (
+            source.read({position: pa.string()}, newlines_in_values=True).column(0).combine_chunks()
+        )
+
+
 def _frame(
     source: _Source,
+    path: Path,
     table: str,
     mapped: dict[int, str],
     arrow: pa.Table,
@@ -430,6 +504,9 @@ def _frame(
     kept = {c: u for c, u in unparsed.items() if len(u.records)}
     if kept:
         df.attrs[UNPARSED_KEY] = kept
+    df.attrs[ORIGIN_KEY] = _Origin(
+        path, source.delimiter, source.decimal, len(source.names), position
+    )
     return df
 
 
@@ -526,36 +603,40 @@ def _parse_numbers(
     plain = stripped if decimal == "." else pc.replace_substring(stripped, decimal, ".")
     values = pc.cast(pc.if_else(ok, plain, pa.scalar(None, pa.string())), pa.float64())
     values = np.asarray(values.to_numpy(zero_copy_only=False), dtype=np.float64)
-    bad = ~np.isfinite(values) & ~empty
-    records = np.flatnonzero(bad)
-    texts = np.asarray(pc.take(col, records).to_pylist(), dtype=object)
-    words = np.asarray(
-        [t.strip().lstrip("+-").lower() for t in pc.take(stripped, records).to_pylist()],
-        dtype=object,
-    )
-    was_number = np.asarray(pc.take(ok, records).to_pylist(), dtype=bool)
-    non_finite = was_number | np.isin(words, list(_NON_FINITE_WORDS))
-    expected = np.where(non_finite, "a finite number", "a number").astype(object)
-    return values, empty, Unparsed(records.astype(np.int64), texts, expected)
+    records = np.flatnonzero(~np.isfinite(values) & ~empty)
+    texts = pc.take(col, records)
+    if isinstance(texts, pa.ChunkedArray):
+        texts = texts.combine_chunks()
+    words = pc.utf8_lower(pc.utf8_ltrim(pc.take(stripped, records), characters="+-"))
+    non_finite = pc.or_(pc.take(ok, records), pc.is_in(words, pa.array(sorted(_NON_FINITE_WORDS))))
+    flags = np.asarray(non_finite.to_numpy(zero_copy_only=False), dtype=bool)
+    return values, empty, Unparsed(records.astype(np.int64), texts, flags)
 
 
-def _unparsed_cells(df: pd.DataFrame, column: str) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Return (positions in ``df``, texts, expected) of the column's cells holding no number.
+def _positions(df: pd.DataFrame, records: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Return (positions in ``df`` of the records still in it, which of ``records`` those are)."""
+    if len(df) == 0:
+        return np.zeros(0, dtype=np.int64), np.zeros(len(records), dtype=bool)
+    if df.index.is_monotonic_increasing:
+        labels = np.asarray(df.index, dtype=np.int64)
+        pos = np.minimum(np.searchsorted(labels, records), len(labels) - 1)
+        hit = labels[pos] == records
+    else:
+        pos = df.index.get_indexer(records)
+        hit = pos >= 0
+    return pos[hit], hit
+
+
+def _unparsed_cells(df: pd.DataFrame, column: str) -> Unparsed:
+    """Return the column's cells holding no finite number, ``records`` as positions in ``df``.
 
     Only cells of rows still in ``df`` count (a caller may have filtered the table).
     """
     info = df.attrs.get(UNPARSED_KEY, {}).get(column)
-    if info is None or len(df) == 0:
-        none = np.zeros(0, dtype=np.int64)
-        return none, np.zeros(0, dtype=object), np.zeros(0, dtype=object)
-    if df.index.is_monotonic_increasing:
-        labels = np.asarray(df.index, dtype=np.int64)
-        pos = np.minimum(np.searchsorted(labels, info.records), len(labels) - 1)
-        hit = labels[pos] == info.records
-    else:
-        pos = df.index.get_indexer(info.records)
-        hit = pos >= 0
-    return pos[hit], info.texts[hit], info.expected[hit]
+    if info is None:
+        return Unparsed(np.zeros(0, np.int64), pa.array([], pa.string()), np.zeros(0, bool))
+    pos, hit = _positions(df, info.records)
+    return Unparsed(pos, info.texts.filter(pa.array(hit)), info.non_finite[hit])
 
 
 def numeric(
@@ -587,28 +668,31 @@ def numeric(
         pd.api.types.is_integer_dtype(s.dtype) and not pd.api.types.is_bool_dtype(s.dtype)
     ):
         out = s.astype(np.float64)
-        pos, texts, expected = _unparsed_cells(df, column)
+        cells = _unparsed_cells(df, column)
         # Non-finite values in a frame not read by read_table carry no text: quote the value.
         stray = ~np.isfinite(out.to_numpy()) & out.notna().to_numpy()
-        stray[pos] = False
+        stray[cells.records] = False
         if stray.any():
             extra = np.flatnonzero(stray)
-            pos = np.concatenate([pos, extra])
-            texts = np.concatenate([texts, out.to_numpy()[extra].astype(str).astype(object)])
-            expected = np.concatenate([expected, np.full(len(extra), "a finite number", object)])
+            cells = Unparsed(
+                np.concatenate([cells.records, extra]),
+                pa.concat_arrays([cells.texts, pa.array(out.to_numpy()[extra].astype(str))]),
+                np.concatenate([cells.non_finite, np.ones(len(extra), dtype=bool)]),
+            )
             out = out.where(np.isfinite(out.to_numpy()))
     else:
         text = ["" if v is None or (isinstance(v, float) and np.isnan(v)) else str(v) for v in s]
-        values, _, info = _parse_numbers(pa.array(text, pa.string()), ".")
+        values, _, cells = _parse_numbers(pa.array(text, pa.string()), ".")
         out = pd.Series(values, index=df.index)
-        pos, texts, expected = info.records, info.texts, info.expected
     bad = np.zeros(len(s), dtype=bool)
-    bad[pos] = True
-    for wanted in ("a number", "a finite number"):
-        pick = expected == wanted
-        if pick.any():
+    bad[cells.records] = True
+    for wanted, pick in (("a number", ~cells.non_finite), ("a finite number", cells.non_finite)):
+        idx = np.flatnonzero(pick)
+        if len(idx):
+            # Only the cells that will be listed become Python strings.
+            shown = cells.texts.take(pa.array(idx[:MAX_PROBLEMS])).to_pylist()
             problems.add_many(
-                file, spreadsheet_rows(df.index[pos[pick]]), their_name, texts[pick], wanted
+                file, spreadsheet_rows(df.index[cells.records[idx]]), their_name, shown, wanted
             )
     empty = out.isna().to_numpy() & ~bad
     if required and empty.any():

@@ -14,7 +14,7 @@ import pytest
 from flangewise import readers
 from flangewise.readers.errors import ProblemList
 from flangewise.readers.settings import read_settings
-from flangewise.readers.tables import read_table
+from flangewise.readers.tables import cell_text, read_table
 
 # --- field counts -------------------------------------------------------------------------------
 
@@ -318,3 +318,40 @@ def test_no_library_warning_reaches_the_user(model):
         warnings.simplefilter("error")
         error = model.load_error()
     assert [(p.row, p.value) for p in error.problems if p.column == "M"] == [(len(rows), "bad")]
+
+
+def test_quoted_line_breaks_across_the_parallel_read_blocks(model):
+    # Over 1 MB of forces (pyarrow reads in 1 MB blocks), every combination name holding a
+    # quoted line break: a block may start inside a quoted value.
+    rows = [["element", "combination", "position", "M"]]
+    for i in range(10_000):
+        for element in ("E1", "E2"):
+            rows += [[element, f"Case\n{i:05d}", f"{k * 2.0}", f"{k + 0.5}"] for k in range(3)]
+    model.tables["forces"] = rows
+    assert len(model.text("forces").encode()) > 1 << 20
+    loaded = model.load()
+    assert len(loaded.forces) == 60_000
+    assert loaded.forces["combination"].cat.categories[-1] == "Case\n09999"
+    assert loaded.forces["M"].tolist()[-3:] == [0.5e6, 1.5e6, 2.5e6]
+
+
+def test_a_quote_never_closed_is_named_in_our_words(model):
+    model.replace_line("forces", 13, 'E2,"C2,4.0,0.0')  # the last row opens a quote
+    problems = model.problems_of("forces.csv")
+    assert [(p.row, p.value) for p in problems] == [(13, 'E2,"C2,4.0,0.0')]
+    assert "double quote" in problems[0].expected
+    assert "CSV parse error" not in str(problems[0])
+
+
+def test_cell_text_quotes_cells_as_written(model):
+    model.set("sections", row=2, column="tf", value="13")
+    model.set("nodes", row=3, column="x", value=" 4.00 ")
+    settings = read_settings(model.write())
+    problems = ProblemList()
+    sections = read_table(settings, "sections", problems)
+    nodes = read_table(settings, "nodes", problems)
+    assert sections["tf"].tolist() == [13.0]
+    assert cell_text(sections, "tf", np.array([True])) == ["13"]
+    later = nodes[nodes.index > 0]  # filtered: positions shift, records do not
+    assert cell_text(later, "x", np.array([0])) == [" 4.00 "]
+    assert cell_text(later, "id", np.array([False, True])) == ["N3"]
