@@ -18,6 +18,7 @@ import io
 import mmap
 import os
 from collections.abc import Iterator
+from concurrent.futures import ThreadPoolExecutor
 from contextlib import contextmanager
 from pathlib import Path
 from typing import Any
@@ -470,13 +471,21 @@ def _frame(
     empties: dict[str, Any] = {}
     unparsed: dict[str, Unparsed] = {}
     needs_text = []
+    ids = [ours for ours in order if ours in ID_COLUMNS[table]]
+    encode = _categorical if table in CATEGORY_TABLES else _text
+    with ThreadPoolExecutor(max_workers=max(1, len(ids))) as pool:
+        # pyarrow releases the GIL while it encodes: big id columns are encoded side by side.
+        encoded = dict(
+            zip(
+                ids,
+                pool.map(encode, [arrow.column(source.names[position[c]]) for c in ids]),
+                strict=True,
+            )
+        )
     for ours in order:
         col = arrow.column(source.names[position[ours]])
-        if ours in ID_COLUMNS[table]:
-            if table in CATEGORY_TABLES:
-                columns[ours], empties[ours] = _categorical(col)
-            else:
-                columns[ours], empties[ours] = _text(col)
+        if ours in encoded:
+            columns[ours], empties[ours] = encoded[ours]
         elif as_text:
             columns[ours], empties[ours], unparsed[ours] = _parse_numbers(col, source.decimal)
         elif _all_finite(col):
@@ -622,7 +631,7 @@ def _positions(df: pd.DataFrame, records: np.ndarray) -> tuple[np.ndarray, np.nd
         pos = np.minimum(np.searchsorted(labels, records), len(labels) - 1)
         hit = labels[pos] == records
     else:
-        pos = df.index.get_indexer(records)
+        pos = df.index.get_indexer(pd.Index(records))
         hit = pos >= 0
     return pos[hit], hit
 
