@@ -215,7 +215,9 @@ def _is_utf8_text(data: bytes | mmap.mmap, end: int, name: str, problems: Proble
     """Check the whole file is UTF-8 text (not a binary file, not another encoding)."""
     expected = "UTF-8 text (save or export the table as CSV in UTF-8)"
     if data.find(b"\x00", 0, end) >= 0:
-        problems.add(name, None, None, None, f"{expected}; this looks like a binary file")
+        problems.add(
+            name, None, None, None, f"{expected}; this looks like a binary file or UTF-16 text"
+        )
         return False
     whole = pa.py_buffer(data).slice(0, end)
     offsets = pa.py_buffer(np.array([0, end], dtype=np.int64))
@@ -611,8 +613,9 @@ def _parse_numbers(
     ok = pc.match_substring_regex(stripped, pattern)
     plain = stripped if decimal == "." else pc.replace_substring(stripped, decimal, ".")
     values = pc.cast(pc.if_else(ok, plain, pa.scalar(None, pa.string())), pa.float64())
-    values = np.asarray(values.to_numpy(zero_copy_only=False), dtype=np.float64)
+    values = np.array(values.to_numpy(zero_copy_only=False), dtype=np.float64)  # writable
     records = np.flatnonzero(~np.isfinite(values) & ~empty)
+    values[records] = np.nan  # "1e309" parses to inf: no infinity passes on
     texts = pc.take(col, records)
     if isinstance(texts, pa.ChunkedArray):
         texts = texts.combine_chunks()

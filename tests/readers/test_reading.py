@@ -14,7 +14,7 @@ import pytest
 from flangewise import readers
 from flangewise.readers.errors import ProblemList
 from flangewise.readers.settings import read_settings
-from flangewise.readers.tables import cell_text, read_table
+from flangewise.readers.tables import cell_text, numeric, read_table
 
 # --- field counts -------------------------------------------------------------------------------
 
@@ -89,6 +89,21 @@ def test_non_finite_number_in_the_big_table(model):
     problem = model.expect_problem("forces.csv", row=9, column="M")
     assert problem.value == "1e309"
     assert problem.expected == "a finite number"
+
+
+def test_non_finite_cell_is_nan_once_reported(model):
+    # "TRUE" sends the table down the careful path, where "1e309" parses to infinity.
+    model.set("forces", row=5, column="position", value="TRUE")
+    model.set("forces", row=6, column="M", value="1e309")
+    settings = read_settings(model.write())
+    problems = ProblemList()
+    forces = read_table(settings, "forces", problems)
+    assert np.isnan(forces["M"].iloc[4])
+    readers_numeric = numeric(forces, "M", "forces.csv", "M", problems)
+    assert np.isnan(readers_numeric.iloc[4])
+    assert [(p.row, p.value, p.expected) for p in problems.items] == [
+        (6, "1e309", "a finite number")
+    ]
 
 
 def test_true_is_not_a_number(model):
