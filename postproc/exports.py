@@ -232,13 +232,19 @@ def flag_counts(segments: pd.DataFrame) -> dict[str, int]:
     return counts
 
 
+def _count(n: int, noun: str) -> str:
+    """'1 member', '2 members'."""
+    return f"{n} {noun}" if n == 1 else f"{n} {noun}s"
+
+
 def summary_text(info: dict[str, Any]) -> str:
     """A short summary for the terminal."""
     lines = [
         f"Model          : {info['model']}",
         f"Design basis   : {info['design basis']}",
-        f"Checked        : {info['members']} members, {info['segments']} segments, "
-        f"{info['load combinations']} load combinations "
+        f"Checked        : {_count(info['members'], 'member')}, "
+        f"{_count(info['segments'], 'segment')}, "
+        f"{_count(info['load combinations'], 'load combination')} "
         f"({info['pairs checked']} segment-combination pairs with the flange in compression, "
         f"{info['pairs not critical']} not critical)",
     ]

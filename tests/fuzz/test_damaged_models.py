@@ -33,7 +33,7 @@ plans = st.builds(
 
 
 @settings(
-    max_examples=120,
+    max_examples=200,
     deadline=None,
     derandomize=True,
     database=None,
