@@ -24,12 +24,15 @@ from flangewise.readers.model import (
     drawn_backwards,
     position_tolerance,
 )
-from flangewise.readers.settings import FLANGE_WORDS, TABLES, Settings, read_settings
+from flangewise.readers.settings import (
+    FLANGE_WORDS,
+    FY_RANGE_MPA,
+    TABLES,
+    Settings,
+    read_settings,
+)
 from flangewise.readers.tables import numeric, read_table, required_text, spreadsheet_rows
 from scipy.spatial import cKDTree
-
-#: Yield stresses outside this range [MPa] are almost always a units mistake.
-FY_RANGE_MPA = (150.0, 1000.0)
 
 #: Node coordinates farther than this from the origin along any axis [mm] are refused (common
 #: practice: 10 000 km, the extent of map-grid coordinates such as UTM northings, which some
