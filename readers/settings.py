@@ -111,8 +111,11 @@ class MemberSettings:
     infer_flange: Literal["top", "bottom", "both"] = "top"
 
 
-GradientMethod = Literal["end_moment", "quarter_point", "cb"]
-GRADIENT_METHODS: tuple[str, ...] = ("end_moment", "quarter_point", "cb")
+GradientMethod = Literal["end_moment", "quarter_point", "cb", "exact"]
+GRADIENT_METHODS: tuple[str, ...] = ("end_moment", "quarter_point", "cb", "exact")
+
+LoadHeight = Literal["shear_centre", "top_flange", "bottom_flange"]
+LOAD_HEIGHTS: tuple[str, ...] = ("shear_centre", "top_flange", "bottom_flange")
 
 
 @dataclass(frozen=True)
@@ -121,17 +124,25 @@ class CheckSettings:
 
     Attributes:
         gradient: the moment-gradient method the check is based on: "end_moment" (ω2 from κ,
-            SANS 10162-1:2011 cl. 13.6(a)), "quarter_point" (CSA S16-14 cl. 13.6(a)(ii)) or "cb"
-            (AISC 360-16 Eq. F1-1). All three are always reported.
+            SANS 10162-1:2011 cl. 13.6(a)), "quarter_point" (CSA S16-14 cl. 13.6(a)(ii)), "cb"
+            (AISC 360-16 Eq. F1-1) or "exact" (the factor from an elastic buckling analysis of
+            the segment's own diagram). All four are always reported.
         E: elastic modulus [MPa].
         G: shear modulus [MPa].
         phi: resistance factor φ [-].
+        load_height: where the transverse loads of every segment act, for the exact analysis:
+            at the shear centre, on the top flange (destabilising under gravity) or on the bottom
+            flange.
+        limit_to_exact: whether a design-basis factor more than 5 % above the exact factor is
+            limited to the exact factor (flag ``code-factor-high``).
     """
 
     gradient: GradientMethod = "end_moment"
     E: float = 200_000.0
     G: float = 77_000.0
     phi: float = 0.9
+    load_height: LoadHeight = "shear_centre"
+    limit_to_exact: bool = True
 
 
 @dataclass(frozen=True)
@@ -504,6 +515,16 @@ def _check_settings(name: str, given: dict[str, Any], problems: list[Problem]) -
         elif key == "gradient":
             if value not in GRADIENT_METHODS:
                 _expect(problems, name, where, value, f"one of {list(GRADIENT_METHODS)}")
+            else:
+                values[key] = value
+        elif key == "load_height":
+            if value not in LOAD_HEIGHTS:
+                _expect(problems, name, where, value, f"one of {list(LOAD_HEIGHTS)}")
+            else:
+                values[key] = value
+        elif key == "limit_to_exact":
+            if not isinstance(value, bool):
+                _expect(problems, name, where, value, "true or false")
             else:
                 values[key] = value
         else:
