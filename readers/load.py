@@ -18,66 +18,28 @@ from flangewise.readers import units
 from flangewise.readers.errors import InputError, Problem, ProblemList
 from flangewise.readers.model import (
     COINCIDENT_MM,
-    POSITION_TOLERANCE,
-    POSITION_TOLERANCE_MM,
     Model,
     drawn_backwards,
-    position_tolerance,
 )
+from flangewise.readers.ranges import moments_nmm, node_coordinates, section_plates
 from flangewise.readers.settings import (
     FLANGE_WORDS,
-    FY_RANGE_MPA,
     TABLES,
     Settings,
     read_settings,
 )
-from flangewise.readers.tables import numeric, read_table, required_text, spreadsheet_rows
+from flangewise.readers.stations import station_positions
+from flangewise.readers.tables import (
+    MAX_LISTED,
+    numeric,
+    read_table,
+    required_text,
+    spreadsheet_rows,
+)
 from scipy.spatial import cKDTree
-
-#: Node coordinates farther than this from the origin along any axis [mm] are refused (common
-#: practice: 10 000 km, the extent of map-grid coordinates such as UTM northings, which some
-#: models are drawn in; float64 still resolves 1e-6 mm there, far below the 1 mm node
-#: coincidence. A larger number is a corrupted cell or a units mistake, and overflows the
-#: geometry: squared distances and the coincident-node search).
-COORDINATE_LIMIT_MM = 1.0e10
-
-#: Plate dimensions of rolled and welded I-sections [mm], (smallest, largest) (common practice:
-#: the lightest rolled sections are about 80 mm deep with 46 mm flanges, the heaviest rolled and
-#: welded girders about 1.1 m and, as plate girders, a few metres deep, with flanges up to about
-#: 1 m wide and 150 mm thick; the ranges leave room on both sides).
-SECTION_RANGES_MM: dict[str, tuple[float, float]] = {
-    "d": (50.0, 5000.0),
-    "b": (25.0, 2000.0),
-    "tf": (1.0, 250.0),
-    "tw": (1.0, 250.0),
-}
-
-#: Largest root radius [mm] (common practice: rolled sections have radii of about 5 to 30 mm;
-#: welded sections have none). It must also be smaller than the clear flange outstand (b - tw)/2.
-ROOT_RADIUS_MAX_MM = 150.0
-
-#: What each plate dimension is called in messages.
-PLATE_NAMES = {
-    "d": "depth",
-    "b": "flange width",
-    "tf": "flange thickness",
-    "tw": "web thickness",
-    "r": "root radius",
-}
-
-#: Factors by which a number typed in the wrong unit is off: m for mm, in for mm, cm for mm.
-UNIT_SLIPS: tuple[float, ...] = (1000.0, 25.4, 10.0)
-
-#: Largest major-axis moment [N·mm] (common practice: 1e13 N·mm = 10 000 000 kN·m, about four
-#: times the plastic moment of the largest section the ranges above admit; a larger value is a
-#: units mistake, and far larger ones overflow the squares in the gradient formulas).
-MOMENT_LIMIT_NMM = 1.0e13
 
 #: Section property overrides and the power of the section length unit each carries.
 OVERRIDES: dict[str, int] = {"A": 2, "Ix": 4, "Iy": 4, "Sx": 3, "Zx": 3, "J": 4, "Cw": 6}
-
-#: Problems of one kind listed per table before the rest are only counted.
-MAX_LISTED = 60
 
 #: Valid combination names shown when an unknown one is asked for.
 NAMES_SHOWN = 8
@@ -182,90 +144,12 @@ def _unique_ids(
     return (~dup & ids.notna()).to_numpy()
 
 
-def _outside_range(
-    value: np.ndarray,
-    lo: float,
-    hi: float,
-    written: pd.Series,
-    rows: np.ndarray,
-    file: str,
-    column: str,
-    expected: str,
-    unit_key: str,
-    problems: ProblemList,
-    consider: np.ndarray | None = None,
-) -> np.ndarray:
-    """Record values (internal units) outside [lo, hi]; return the mask of those recorded.
-
-    Missing values (NaN) were reported where they were read and are left alone. A value that one
-    of ``UNIT_SLIPS`` would bring into the range is said to look like a units mistake, naming the
-    settings key ``unit_key``.
-
-    Args:
-        value: the values in internal units.
-        lo: smallest plausible value.
-        hi: largest plausible value.
-        written: the cells as written in the file (for messages).
-        rows: spreadsheet row per value.
-        file: the file's name.
-        column: the file's own column name.
-        expected: what was expected, in words.
-        unit_key: the settings key of the unit, such as "[units] section = 'mm'".
-        problems: where problems go.
-        consider: the values to look at (default: all).
-    """
-    with np.errstate(invalid="ignore", over="ignore"):
-        bad = ~np.isnan(value) & ~((value >= lo) & (value <= hi))
-        if consider is not None:
-            bad &= consider
-        if not bad.any():
-            return bad
-        v = value[bad]
-        slip = np.zeros(len(v), dtype=np.int64)
-        for bit, f in enumerate(UNIT_SLIPS):
-            fits = ((v * f >= lo) & (v * f <= hi)) | ((v / f >= lo) & (v / f <= hi))
-            slip |= fits.astype(np.int64) << bit
-    idx = np.flatnonzero(bad)
-    for code in np.unique(slip).tolist():
-        take = idx[slip == code]
-        factors = [f"{f:g}" for bit, f in enumerate(UNIT_SLIPS) if (code >> bit) & 1]
-        hint = (
-            f"; off by a factor of {' or '.join(factors)}, it looks like a units mistake: "
-            f"check {unit_key}"
-            if factors
-            else f" (check {unit_key})"
-        )
-        problems.add_many(file, rows[take], column, written.iloc[take], expected + hint)
-    return bad
-
-
 def _nodes(df: pd.DataFrame, settings: Settings, problems: ProblemList) -> pd.DataFrame:
     """Nodes in mm; a coordinate that is missing or out of range is NaN (already reported)."""
     file = settings.files["nodes"]
     required_text(df, "id", file, _col(settings, "nodes", "id"), problems)
     keep = _unique_ids(df, "id", "nodes", settings, problems)
-    f = units.factor("length", settings.units.length)
-    rows = spreadsheet_rows(df.index)
-    xyz = {}
-    for c in "xyz":
-        their = _col(settings, "nodes", c)
-        with np.errstate(over="ignore"):
-            v = numeric(df, c, file, their, problems).to_numpy() * f
-        lim = COORDINATE_LIMIT_MM
-        far = _outside_range(
-            v,
-            -lim,
-            lim,
-            df[c],
-            rows,
-            file,
-            their,
-            f"a coordinate within ±{lim:g} mm (10 000 km) once converted from "
-            f"'{settings.units.length}'",
-            f"[units] length (now '{settings.units.length}')",
-            problems,
-        )
-        xyz[c] = np.where(far, np.nan, v)
+    xyz = node_coordinates(df, settings, problems)
     if settings.vertical == "y":
         # Y up -> internal z up, keeping a right-handed system: (X, Y, Z) -> (X, -Z, Y).
         xyz = {"x": xyz["x"], "y": -xyz["z"], "z": xyz["y"]}
@@ -328,105 +212,9 @@ def _sections(df: pd.DataFrame, settings: Settings, problems: ProblemList) -> pd
     col = lambda ours: _col(settings, "sections", ours)  # noqa: E731
     required_text(df, "name", file, col("name"), problems)
     keep = _unique_ids(df, "name", "sections", settings, problems)
+    out = section_plates(df, settings, problems)
     f = units.factor("length", settings.units.section)
-    unit = settings.units.section
-    unit_key = f"[units] section (now '{unit}')"
     rows = spreadsheet_rows(df.index)
-    out = pd.DataFrame(index=pd.Index(df["name"], name="name"))
-    plates_ok = np.ones(len(df), dtype=bool)
-    for c, (lo, hi) in SECTION_RANGES_MM.items():
-        with np.errstate(over="ignore"):
-            v = numeric(df, c, file, col(c), problems).to_numpy() * f
-        bad = v <= 0
-        problems.add_many(file, rows[bad], col(c), df.loc[bad, c], "a positive dimension")
-        far = _outside_range(
-            v,
-            lo,
-            hi,
-            df[c],
-            rows,
-            file,
-            col(c),
-            f"a {PLATE_NAMES[c]} from {lo:g} to {hi:g} mm once converted from '{unit}' (common "
-            "practice for rolled and welded I-sections)",
-            unit_key,
-            problems,
-            consider=v > 0,
-        )
-        plates_ok &= ~bad & ~far & ~np.isnan(v)
-        out[c] = v
-    d, b, tf, tw = (out[c].to_numpy() for c in ("d", "b", "tf", "tw"))
-    # Proportions only where every plate is plausible: one defect, one problem.
-    thick = plates_ok & (2.0 * tf >= d)
-    problems.add_many(
-        file,
-        rows[thick],
-        col("tf"),
-        df.loc[thick, "tf"],
-        f"a flange thinner than half the depth '{col('d')}'",
-    )
-    wide = plates_ok & (tw >= b)
-    problems.add_many(
-        file,
-        rows[wide],
-        col("tw"),
-        df.loc[wide, "tw"],
-        f"a web thinner than the flange width '{col('b')}'",
-    )
-    if "r" in df:
-        with np.errstate(over="ignore"):
-            r = numeric(df, "r", file, col("r"), problems, required=False).to_numpy() * f
-        bad = r < 0
-        problems.add_many(
-            file, rows[bad], col("r"), df.loc[bad, "r"], "a root radius of zero or more"
-        )
-        far = _outside_range(
-            r,
-            0.0,
-            ROOT_RADIUS_MAX_MM,
-            df["r"],
-            rows,
-            file,
-            col("r"),
-            f"a root radius from 0 to {ROOT_RADIUS_MAX_MM:g} mm once converted from '{unit}' "
-            "(common practice for rolled I-sections)",
-            unit_key,
-            problems,
-            consider=r >= 0,
-        )
-        outstand = (b - tw) / 2.0
-        with np.errstate(invalid="ignore"):
-            big = plates_ok & ~far & ~wide & (r >= outstand)
-        for i in np.flatnonzero(big)[:MAX_LISTED].tolist():
-            problems.add(
-                file,
-                int(rows[i]),
-                col("r"),
-                df["r"].iloc[i],
-                f"a root radius smaller than the clear flange outstand ('{col('b')}' - "
-                f"'{col('tw')}') / 2 = {outstand[i] / f:g} {unit}",
-            )
-        problems.more += max(0, int(big.sum()) - MAX_LISTED)
-        out["r"] = np.nan_to_num(r, nan=0.0)
-    else:
-        out["r"] = 0.0
-    stress = units.factor("stress", settings.units.stress)
-    if "fy" in df:
-        fy = numeric(df, "fy", file, col("fy"), problems, required=False) * stress
-        fy = fy.fillna(settings.default_fy)
-    else:
-        fy = pd.Series(settings.default_fy, index=df.index)
-    lo, hi = FY_RANGE_MPA
-    bad = ((fy < lo) | (fy > hi)).to_numpy()
-    problems.add_many(
-        file,
-        rows[bad],
-        col("fy") if "fy" in df else "(default fy from the settings)",
-        fy[bad].round(3),
-        f"a yield stress of {lo:g} to {hi:g} MPa once converted from '{settings.units.stress}' "
-        "(a value outside is almost always a units mistake: check [units] stress)",
-    )
-    out["fy"] = fy.to_numpy()
     for c, power in OVERRIDES.items():
         if c in df:
             with np.errstate(over="ignore"):
@@ -568,65 +356,9 @@ def _forces(
 
     pos_written = numeric(df, "position", file, col("position"), problems).to_numpy()
     moment = numeric(df, "M", file, col("M"), problems).to_numpy()
-    # Rows of an element that already has a problem get no length: no follow-on problems.
-    usable = np.append(~broken, False)[ecode]
-    length = np.where(usable, np.append(elements["length"].to_numpy(), np.nan)[ecode], np.nan)
-    length_unit = settings.units.length
-    with np.errstate(over="ignore", invalid="ignore"):
-        if settings.positions == "fraction":
-            pos = pos_written * length
-            given_as = "a fraction from 0 to 1 of the element's length"
-        else:
-            pos = pos_written * units.factor("length", length_unit)
-            given_as = f"a distance from 0 to the element's length ({length_unit})"
-    tol = position_tolerance(length)
-    with np.errstate(invalid="ignore"):
-        outside = (pos < -tol) | (pos > length + tol)  # False where length is NaN
-    if outside.any():
-        problems.add_many(
-            file, rows_of(outside), col("position"), df["position"][outside], given_as
-        )
-    # Within the tolerance of an end a station is that end, exactly: element ends then land on
-    # the member's node positions, and every element has its end stations (checked below).
-    with np.errstate(invalid="ignore"):
-        pos = np.where(pos <= tol, 0.0, np.where(pos >= length - tol, length, pos))
+    pos = station_positions(df, pos_written, ecode, broken, elements, settings, file, problems)
 
-    ccode = df["combination"].cat.codes.to_numpy()
-    # An element with a bad position row (reported above) may lack an end station because of it:
-    # its stations are not checked further.
-    bad_row = usable & (outside | ~np.isfinite(pos))
-    spoilt = np.append(np.bincount(ecode[bad_row], minlength=len(elements)) > 0, True)
-    good = usable & (ccode >= 0) & ~spoilt[ecode]
-    everything = bool(good.all())
-    _station_checks(
-        ecode if everything else ecode[good],
-        ccode if everything else ccode[good],
-        pos if everything else pos[good],
-        pos_written if everything else pos_written[good],
-        df.index if everything else df.index[good],
-        elements,
-        df["combination"],
-        settings,
-        file,
-        col("element"),
-        problems,
-    )
-
-    moment_unit = settings.units.moment
-    with np.errstate(over="ignore"):
-        m = moment * units.factor("moment", moment_unit)
-    _outside_range(
-        m,
-        -MOMENT_LIMIT_NMM,
-        MOMENT_LIMIT_NMM,
-        df["M"],
-        spreadsheet_rows(df.index),
-        file,
-        col("M"),
-        f"a moment within ±{MOMENT_LIMIT_NMM / 1e6:g} kN·m once converted from '{moment_unit}'",
-        f"[units] moment (now '{moment_unit}')",
-        problems,
-    )
+    m = moments_nmm(df, moment, settings, file, problems)
     if settings.positive_moment == "compresses_bottom":
         m = -m
     if settings.backwards_flips_sign:
@@ -732,87 +464,3 @@ def _selected_combinations(
                 f"{expected} ([forces] combinations)",
             )
     return combination.isin(wanted).to_numpy()
-
-
-def _station_checks(
-    ecode: np.ndarray,
-    ccode: np.ndarray,
-    pos: np.ndarray,
-    written: np.ndarray,
-    records: pd.Index,
-    elements: pd.DataFrame,
-    combos: pd.Series,
-    settings: Settings,
-    file: str,
-    element_col: str,
-    problems: ProblemList,
-) -> None:
-    """Record elements without a station at each end in a combination, or missing from one.
-
-    Positions are already snapped onto the ends within the tolerance, so "a station at the start"
-    is ``pos == 0`` and "at the end" is ``pos == length``. Counted with ``np.bincount`` over a
-    dense (element, combination) key: one pass per statistic, no sort and no group-by, which
-    matters at millions of rows. One problem per element, at the first pair that fails.
-    """
-    if len(ecode) == 0:
-        return
-    cats = combos.cat.categories
-    ncomb = len(cats)
-    n_el = len(elements)
-    size = n_el * ncomb
-    key = ecode.astype(np.int64) * ncomb + ccode.astype(np.int64)
-    length = elements["length"].to_numpy()
-    count = np.bincount(key, minlength=size)
-    at_start = np.bincount(key, weights=pos == 0.0, minlength=size)
-    at_end = np.bincount(key, weights=pos == length[ecode], minlength=size)
-    failing = np.flatnonzero((count > 0) & ((at_start == 0) | (at_end == 0)))
-    ids = elements.index.to_numpy()
-    if len(failing):
-        # One problem per element: its first failing combination, with a count of the others.
-        el_of, first_of, n_of = np.unique(failing // ncomb, return_index=True, return_counts=True)
-        listed = failing[first_of[:MAX_LISTED]]
-        hit = np.isin(key, listed)
-        found = (
-            pd.DataFrame(
-                {"key": key[hit], "row": spreadsheet_rows(records[hit]), "pos": written[hit]}
-            )
-            .groupby("key")
-            .agg(row=("row", "min"), lo=("pos", "min"), hi=("pos", "max"), n=("pos", "size"))
-        )
-        if settings.positions == "fraction":
-            ends = "0 and 1 as fractions of its length"
-        else:
-            f = units.factor("length", settings.units.length)
-        for k, others in zip(listed.tolist(), n_of[:MAX_LISTED].tolist(), strict=True):
-            e, c = divmod(k, ncomb)
-            rec = found.loc[k]
-            if settings.positions != "fraction":
-                ends = f"0 and {length[e] / f:g} {settings.units.length}"
-            also = f" (and {others - 1} more combination(s) like it)" if others > 1 else ""
-            what = (
-                f"only position {rec['lo']:g}"
-                if rec["lo"] == rec["hi"]
-                else f"positions from {rec['lo']:g} to {rec['hi']:g} ({int(rec['n'])} rows)"
-            )
-            problems.add(
-                file,
-                int(rec["row"]),
-                element_col,
-                ids[e],
-                f"a station at each end of the element ({ends}, within "
-                f"{POSITION_TOLERANCE:.1%} of its length and at least {POSITION_TOLERANCE_MM:g} "
-                f"mm) in combination '{cats[c]}', which has {what}{also}",
-            )
-        problems.more += max(0, len(el_of) - MAX_LISTED)
-    present = (count > 0).reshape(n_el, ncomb)
-    used = np.asarray(present.any(axis=1))
-    missing = np.argwhere(~present & used[:, None])
-    for e, c in missing[:MAX_LISTED].tolist():
-        problems.add(
-            file,
-            None,
-            element_col,
-            ids[e],
-            f"rows for combination '{cats[c]}', which other elements have",
-        )
-    problems.more += max(0, len(missing) - MAX_LISTED)

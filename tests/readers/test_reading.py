@@ -12,9 +12,10 @@ import numpy as np
 import pandas as pd
 import pytest
 from flangewise import readers
+from flangewise.readers.csv_parse import cell_text
 from flangewise.readers.errors import ProblemList
 from flangewise.readers.settings import read_settings
-from flangewise.readers.tables import cell_text, numeric, read_table
+from flangewise.readers.tables import numeric, read_table
 
 # --- field counts -------------------------------------------------------------------------------
 
