@@ -15,6 +15,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 from flangewise.readers import units
+from flangewise.readers.csv_parse import cell_text
 from flangewise.readers.errors import InputError, Problem, ProblemList
 from flangewise.readers.model import (
     COINCIDENT_MM,
@@ -221,7 +222,11 @@ def _sections(df: pd.DataFrame, settings: Settings, problems: ProblemList) -> pd
                 v = numeric(df, c, file, col(c), problems, required=False).to_numpy() * f**power
             bad = ~np.isnan(v) & ~((v > 0) & np.isfinite(v))
             problems.add_many(
-                file, rows[bad], col(c), df.loc[bad, c], "a positive, finite value or an empty cell"
+                file,
+                rows[bad],
+                col(c),
+                cell_text(df, c, bad),
+                "a positive, finite value or an empty cell",
             )
             out[c] = v
     return out[keep]
@@ -381,7 +386,7 @@ def _forces(
                 file,
                 rows_of(huge),
                 col(c),
-                df[c][huge],
+                cell_text(df, c, huge),
                 f"a finite number once converted from '{unit}'",
             )
             out[c] = v

@@ -11,7 +11,8 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 from flangewise.readers import units
-from flangewise.readers.errors import ProblemList
+from flangewise.readers.csv_parse import cell_text
+from flangewise.readers.errors import MAX_PROBLEMS, ProblemList
 from flangewise.readers.settings import FY_RANGE_MPA, Settings
 from flangewise.readers.tables import MAX_LISTED, numeric, spreadsheet_rows
 
@@ -75,7 +76,8 @@ def node_coordinates(
             v,
             -lim,
             lim,
-            df[c],
+            df,
+            c,
             rows,
             file,
             their,
@@ -106,12 +108,13 @@ def section_plates(df: pd.DataFrame, settings: Settings, problems: ProblemList) 
         with np.errstate(over="ignore"):
             v = numeric(df, c, file, col(c), problems).to_numpy() * f
         bad = v <= 0
-        problems.add_many(file, rows[bad], col(c), df.loc[bad, c], "a positive dimension")
+        problems.add_many(file, rows[bad], col(c), cell_text(df, c, bad), "a positive dimension")
         far = outside_range(
             v,
             lo,
             hi,
-            df[c],
+            df,
+            c,
             rows,
             file,
             col(c),
@@ -130,7 +133,7 @@ def section_plates(df: pd.DataFrame, settings: Settings, problems: ProblemList) 
         file,
         rows[thick],
         col("tf"),
-        df.loc[thick, "tf"],
+        cell_text(df, "tf", thick),
         f"a flange thinner than half the depth '{col('d')}'",
     )
     wide = plates_ok & (tw >= b)
@@ -138,7 +141,7 @@ def section_plates(df: pd.DataFrame, settings: Settings, problems: ProblemList) 
         file,
         rows[wide],
         col("tw"),
-        df.loc[wide, "tw"],
+        cell_text(df, "tw", wide),
         f"a web thinner than the flange width '{col('b')}'",
     )
     if "r" in df:
@@ -146,13 +149,14 @@ def section_plates(df: pd.DataFrame, settings: Settings, problems: ProblemList) 
             r = numeric(df, "r", file, col("r"), problems, required=False).to_numpy() * f
         bad = r < 0
         problems.add_many(
-            file, rows[bad], col("r"), df.loc[bad, "r"], "a root radius of zero or more"
+            file, rows[bad], col("r"), cell_text(df, "r", bad), "a root radius of zero or more"
         )
         far = outside_range(
             r,
             0.0,
             ROOT_RADIUS_MAX_MM,
-            df["r"],
+            df,
+            "r",
             rows,
             file,
             col("r"),
@@ -165,12 +169,14 @@ def section_plates(df: pd.DataFrame, settings: Settings, problems: ProblemList) 
         outstand = (b - tw) / 2.0
         with np.errstate(invalid="ignore"):
             big = plates_ok & ~far & ~wide & (r >= outstand)
-        for i in np.flatnonzero(big)[:MAX_LISTED].tolist():
+        listed = np.flatnonzero(big)[:MAX_LISTED]
+        texts = cell_text(df, "r", listed, limit=MAX_LISTED)
+        for i, text in zip(listed.tolist(), texts, strict=True):
             problems.add(
                 file,
                 int(rows[i]),
                 col("r"),
-                df["r"].iloc[i],
+                text,
                 f"a root radius smaller than the clear flange outstand ('{col('b')}' - "
                 f"'{col('tw')}') / 2 = {outstand[i] / f:g} {unit}",
             )
@@ -178,24 +184,50 @@ def section_plates(df: pd.DataFrame, settings: Settings, problems: ProblemList) 
         out["r"] = np.nan_to_num(r, nan=0.0)
     else:
         out["r"] = 0.0
-    stress = units.factor("stress", settings.units.stress)
-    if "fy" in df:
-        fy = numeric(df, "fy", file, col("fy"), problems, required=False) * stress
-        fy = fy.fillna(settings.default_fy)
-    else:
-        fy = pd.Series(settings.default_fy, index=df.index)
-    lo, hi = FY_RANGE_MPA
-    bad = ((fy < lo) | (fy > hi)).to_numpy()
-    problems.add_many(
-        file,
-        rows[bad],
-        col("fy") if "fy" in df else "(default fy from the settings)",
-        fy[bad].round(3),
-        f"a yield stress of {lo:g} to {hi:g} MPa once converted from '{settings.units.stress}' "
-        "(a value outside is almost always a units mistake: check [units] stress)",
-    )
-    out["fy"] = fy.to_numpy()
+    out["fy"] = _yield_stress(df, settings, rows, problems)
     return out
+
+
+def _yield_stress(
+    df: pd.DataFrame, settings: Settings, rows: np.ndarray, problems: ProblemList
+) -> np.ndarray:
+    """Return fy [MPa] per section row (the settings' default where empty); report implausible ones.
+
+    The message quotes the cell as written and gives its value once converted to MPa.
+    """
+    unit = settings.units.stress
+    stress = units.factor("stress", unit)
+    if "fy" in df:
+        their = settings.columns["sections"]["fy"]
+        read = numeric(df, "fy", settings.files["sections"], their, problems, required=False)
+        fy = (read * stress).fillna(settings.default_fy).to_numpy()
+    else:
+        their = "(default fy from the settings)"
+        fy = np.full(len(df), settings.default_fy)
+    lo, hi = FY_RANGE_MPA
+    bad = np.flatnonzero((fy < lo) | (fy > hi))
+    if len(bad) == 0:
+        return fy
+    listed = bad[:MAX_PROBLEMS]
+    if "fy" in df:
+        texts = cell_text(df, "fy", listed)
+    else:
+        # The settings check their default against the same range: this is only a safeguard.
+        texts = [f"{settings.default_fy:g}"] * len(listed)
+    for i, text in zip(listed.tolist(), texts, strict=True):
+        # The settings' default is in MPa already: only a cell of the file is converted.
+        shown = stress != 1.0 and "fy" in df
+        converted = f"{text.strip()} {unit} = {fy[i]:.6g} MPa; " if shown else ""
+        problems.add(
+            settings.files["sections"],
+            int(rows[i]),
+            their,
+            text,
+            f"a yield stress of {lo:g} to {hi:g} MPa once converted from '{unit}' ({converted}"
+            "a value outside is almost always a units mistake: check [units] stress)",
+        )
+    problems.more += len(bad) - len(listed)
+    return fy
 
 
 def moments_nmm(
@@ -210,7 +242,8 @@ def moments_nmm(
         m,
         -MOMENT_LIMIT_NMM,
         MOMENT_LIMIT_NMM,
-        df["M"],
+        df,
+        "M",
         spreadsheet_rows(df.index),
         file,
         col("M"),
@@ -225,7 +258,8 @@ def outside_range(
     value: np.ndarray,
     lo: float,
     hi: float,
-    written: pd.Series,
+    df: pd.DataFrame,
+    ours: str,
     rows: np.ndarray,
     file: str,
     column: str,
@@ -244,7 +278,8 @@ def outside_range(
         value: the values in internal units.
         lo: smallest plausible value.
         hi: largest plausible value.
-        written: the cells as written in the file (for messages).
+        df: the table the values come from (its cells are quoted as the file wrote them).
+        ours: our name of the column the values come from.
         rows: spreadsheet row per value.
         file: the file's name.
         column: the file's own column name.
@@ -274,5 +309,5 @@ def outside_range(
             if factors
             else f" (check {unit_key})"
         )
-        problems.add_many(file, rows[take], column, written.iloc[take], expected + hint)
+        problems.add_many(file, rows[take], column, cell_text(df, ours, take), expected + hint)
     return bad

@@ -9,6 +9,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 from flangewise.readers import units
+from flangewise.readers.csv_parse import cell_text
 from flangewise.readers.errors import ProblemList
 from flangewise.readers.model import (
     POSITION_TOLERANCE,
@@ -62,7 +63,7 @@ def station_positions(
         outside = (pos < -tol) | (pos > length + tol)  # False where length is NaN
     if outside.any():
         problems.add_many(
-            file, rows_of(outside), col("position"), df["position"][outside], given_as
+            file, rows_of(outside), col("position"), cell_text(df, "position", outside), given_as
         )
     # Within the tolerance of an end a station is that end, exactly: element ends then land on
     # the member's node positions, and every element has its end stations (checked below).
@@ -82,6 +83,7 @@ def station_positions(
         pos if everything else pos[good],
         pos_written if everything else pos_written[good],
         df.index if everything else df.index[good],
+        df,
         elements,
         df["combination"],
         settings,
@@ -98,6 +100,7 @@ def station_checks(
     pos: np.ndarray,
     written: np.ndarray,
     records: pd.Index,
+    forces: pd.DataFrame,
     elements: pd.DataFrame,
     combos: pd.Series,
     settings: Settings,
@@ -110,7 +113,8 @@ def station_checks(
     Positions are already snapped onto the ends within the tolerance, so "a station at the start"
     is ``pos == 0`` and "at the end" is ``pos == length``. Counted with ``np.bincount`` over a
     dense (element, combination) key: one pass per statistic, no sort and no group-by, which
-    matters at millions of rows. One problem per element, at the first pair that fails.
+    matters at millions of rows. One problem per element, at the first pair that fails, quoting
+    its first and last positions as ``forces`` (the table) wrote them.
     """
     if len(ecode) == 0:
         return
@@ -135,8 +139,16 @@ def station_checks(
                 {"key": key[hit], "row": spreadsheet_rows(records[hit]), "pos": written[hit]}
             )
             .groupby("key")
-            .agg(row=("row", "min"), lo=("pos", "min"), hi=("pos", "max"), n=("pos", "size"))
+            .agg(row=("row", "min"), lo=("pos", "idxmin"), hi=("pos", "idxmax"), n=("pos", "size"))
         )
+        # The first and last positions of each pair, quoted as written ("0.40", not 0.4).
+        at = forces.index.get_indexer(records[hit])
+        lo_at, hi_at = found["lo"].to_numpy(), found["hi"].to_numpy()
+        ends_at = np.concatenate([at[lo_at], at[hi_at]])
+        texts = cell_text(forces, "position", ends_at, limit=len(ends_at))
+        found["lo_text"] = texts[: len(found)]
+        found["hi_text"] = texts[len(found) :]
+        found["same"] = written[hit][lo_at] == written[hit][hi_at]
         if settings.positions == "fraction":
             ends = "0 and 1 as fractions of its length"
         else:
@@ -147,10 +159,11 @@ def station_checks(
             if settings.positions != "fraction":
                 ends = f"0 and {length[e] / f:g} {settings.units.length}"
             also = f" (and {others - 1} more combination(s) like it)" if others > 1 else ""
+            lo, hi = rec["lo_text"].strip(), rec["hi_text"].strip()
             what = (
-                f"only position {rec['lo']:g}"
-                if rec["lo"] == rec["hi"]
-                else f"positions from {rec['lo']:g} to {rec['hi']:g} ({int(rec['n'])} rows)"
+                f"only position {lo}"
+                if rec["same"]
+                else f"positions from {lo} to {hi} ({int(rec['n'])} rows)"
             )
             problems.add(
                 file,
