@@ -12,6 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 from flangewise.engine import gradient, resistance
+from flangewise.engine.buckling import EXACT_NOTES, exact_factors
 from flangewise.engine.flags import flag_labels
 from flangewise.engine.layout import Layout, build_layout
 from flangewise.engine.sections import section_class, section_properties
@@ -23,7 +24,59 @@ from flangewise.readers.settings import CheckSettings
 STATUS = ["ok", "over", "not critical", "not checked"]
 
 #: Column holding each method's factor in the results.
-METHOD_COLUMN = {"end_moment": "omega2_end", "quarter_point": "omega2_qp", "cb": "cb"}
+METHOD_COLUMN = {
+    "end_moment": "omega2_end",
+    "quarter_point": "omega2_qp",
+    "cb": "cb",
+    "exact": "exact_factor",
+}
+
+#: A design-basis factor more than this fraction above the exact factor is flagged
+#: ``code-factor-high`` (common practice: 5 % covers the spread of published C1 tables for one
+#: diagram and the rounding of exported moments; beyond it the shortcut is on the unsafe side).
+EXACT_MARGIN = 0.05
+
+#: An inside station farther than this share of |M|max from the straight line between the end
+#: moments means the segment carries more than end moments (common practice: well above the
+#: rounding of exported moments, well below a transverse load that changes ω2 noticeably).
+LINE_SHARE = 0.05
+
+
+@dataclass(frozen=True)
+class DiagramShape:
+    """How far a diagram departs from end moments only.
+
+    Attributes:
+        departure: largest |M − line| over the stations ÷ |M|max, the line running straight
+            between the end moments [-].
+        jump: the moment jumps inside the segment by more than ``LINE_SHARE`` of |M|max.
+    """
+
+    departure: np.ndarray
+    jump: np.ndarray
+
+
+def diagram_shape(runs: gradient.Runs, m_max: np.ndarray) -> DiagramShape:
+    """Measure each run's departure from a straight line between its end moments (vectorized)."""
+    n = len(runs.length)
+    if n == 0:
+        return DiagramShape(np.zeros(0), np.zeros(0, dtype=bool))
+    run = runs.run_of_station
+    last = runs.offsets[1:] - 1
+    m0, m1 = runs.m[runs.starts], runs.m[last]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        t = np.clip(runs.x / runs.length[run], 0.0, 1.0)
+        scale = np.where(m_max > 0.0, m_max, 1.0)
+    line = m0[run] + (m1 - m0)[run] * t
+    departure = np.maximum.reduceat(np.abs(runs.m - line), runs.starts) / scale
+    same_x = np.r_[np.diff(runs.x) <= gradient.STATION_MERGE_MM, False]
+    inside = (runs.x > gradient.END_TOLERANCE_MM) & (
+        runs.x < runs.length[run] - gradient.END_TOLERANCE_MM
+    )
+    step = np.r_[np.abs(np.diff(runs.m)), 0.0] > LINE_SHARE * scale[run]
+    same_run = np.r_[run[1:] == run[:-1], False]
+    jump = np.bincount(run, weights=same_x & same_run & inside & step, minlength=n) > 0
+    return DiagramShape(departure, jump)
 
 
 @dataclass(frozen=True)
@@ -73,8 +126,15 @@ def check_pairs(layout: Layout, props: pd.DataFrame, settings: CheckSettings) ->
     ``combination``, ``section``, ``length`` [mm], ``section_class``, ``M_start``, ``M_end``
     [N·mm, positive compresses the segment's flange],
     ``M_max``, ``inside_peak``, ``inside_peak_at`` [mm], ``M_a``, ``M_b``, ``M_c``, ``kappa``,
-    ``omega2_formula``, ``omega2_end``, ``omega2_qp``, ``cb``, ``method``, ``factor``,
-    ``Mcr``, ``M_base`` (Mp for class 1-2, My for class 3), ``Mr``, ``demand``, ``utilization``,
+    ``omega2_formula``, ``omega2_end``, ``omega2_qp``, ``cb`` (uncapped, as published),
+    ``line_departure`` (largest distance of an inside station from the straight line between the
+    end moments, ÷ |M|max), ``inside_jump`` (a moment jump inside), ``exact_factor`` (Mcr_exact ÷
+    Mcr of uniform moment; NaN with ``exact_note`` saying why), ``Mcr_exact`` [N·mm],
+    ``exact_elements`` (finite elements used), ``exact_note``, ``method``, ``factor_basis`` (the
+    design-basis factor with its fall-backs), ``factor`` (the factor used: the basis factor,
+    limited to the exact factor where flagged ``code-factor-high`` and ``limit_to_exact`` is on),
+    ``Mcr``, ``M_base`` (Mp for class 1-2, My for class 3), ``Mr``, ``Mr_exact``, ``demand``,
+    ``utilization``, ``utilization_exact``,
     ``status`` ("ok", "over", "not critical", "not checked"), ``flags`` and one boolean column
     per flag name (``flag_<name>``).
     """
@@ -96,9 +156,6 @@ def check_pairs(layout: Layout, props: pd.DataFrame, settings: CheckSettings) ->
     cantilever = seg["cantilever"].to_numpy()[k]
     end_unbraced = ~(seg["braced_start"].to_numpy()[k] & seg["braced_end"].to_numpy()[k])
     fallback = cantilever | end_unbraced | ends.few_stations
-    by_method = {"end_moment": ends.omega2, "quarter_point": omega2_qp, "cb": cb}
-    factor = np.where(fallback, 1.0, by_method[settings.gradient])
-    capped = ~fallback & (factor >= gradient.OMEGA2_CAP) & (settings.gradient != "cb")
 
     # Text columns as categoricals: codes per pair, each distinct text made once.
     seg_codes = seg["member"].astype("category")
@@ -115,15 +172,53 @@ def check_pairs(layout: Layout, props: pd.DataFrame, settings: CheckSettings) ->
         return props[name].to_numpy()[where]
 
     cls = prop("section_class")
+    compressed = pairs["compressed"].to_numpy()
+    class4 = cls >= 4
+    flange_code = pd.Categorical(seg["flange"].to_numpy(), categories=list(FLANGES)).codes[k]
+
+    # Exact elastic buckling of the sampled diagram, where its fork supports hold.
+    fork = compressed & ~class4 & ~cantilever & ~end_unbraced
+    exact = exact_factors(
+        runs, fork, flange_code, prop("Iy"), prop("J"), prop("Cw"), prop("d") - prop("tf"), settings
+    )
+    shape = diagram_shape(runs, m_max)
+
+    by_method = {
+        "end_moment": ends.omega2,
+        "quarter_point": omega2_qp,
+        # Cb is published uncapped; used as ω2 in the Mcr formula it is held to the same 2.5.
+        "cb": np.minimum(cb, gradient.OMEGA2_CAP),
+        "exact": np.nan_to_num(exact.factor, nan=1.0),
+    }
+    basis = np.where(fallback, 1.0, by_method[settings.gradient])
+    capped = (
+        ~fallback
+        & (settings.gradient != "exact")
+        & (np.where(settings.gradient == "cb", cb, basis) >= gradient.OMEGA2_CAP)
+    )
+    # A code factor above the exact one overestimates Mcr for this diagram; being more
+    # conservative than a code shortcut is always allowed, so by default the factor is limited.
+    high = basis > (1.0 + EXACT_MARGIN) * exact.factor  # False where the exact factor is NaN
+    factor = np.where(high & settings.limit_to_exact, exact.factor, basis)
+    formula_used = (
+        (settings.gradient == "end_moment") & ~fallback & (ends.omega2 == ends.omega2_formula)
+    )
+    off_line = (
+        formula_used
+        & ~ends.peak_inside
+        & ~ends.zero_ends
+        & ((shape.departure > LINE_SHARE) | shape.jump)
+    )
+
     m_base = np.where(cls <= 2, prop("Zx"), prop("Sx")) * prop("fy")
     mcr = resistance.m_cr(factor, length, prop("Iy"), prop("J"), prop("Cw"), settings.E, settings.G)
     mr = resistance.m_r(mcr, m_base, settings.phi)
-    compressed = pairs["compressed"].to_numpy()
-    class4 = cls >= 4
+    mr_exact = resistance.m_r(exact.m_cr, m_base, settings.phi)
     checked = compressed & ~class4
     demand = pairs["demand"].to_numpy()
     with np.errstate(invalid="ignore", divide="ignore"):
         utilization = np.where(checked, demand / mr, np.nan)
+        utilization_exact = np.where(checked, demand / mr_exact, np.nan)
     status_code = np.where(
         ~compressed, 2, np.where(class4, 3, np.where(utilization > 1.0, 1, 0))
     ).astype(np.int8)
@@ -138,16 +233,15 @@ def check_pairs(layout: Layout, props: pd.DataFrame, settings: CheckSettings) ->
         "end-unbraced": end_unbraced & compressed,
         "zero-ends": ends.zero_ends & compressed,
         "assumed-brace": seg["assumed"].to_numpy()[k] & compressed,
+        "code-factor-high": high & checked,
+        "not-end-moments": off_line & checked,
     }
     out = pd.DataFrame(
         {
             "segment_row": k,
             "segment": pd.Categorical.from_codes(k, categories=seg.index),
             "member": member,
-            "flange": pd.Categorical.from_codes(
-                pd.Categorical(seg["flange"].to_numpy(), categories=list(FLANGES)).codes[k],
-                categories=pd.Index(FLANGES),
-            ),
+            "flange": pd.Categorical.from_codes(flange_code, categories=pd.Index(FLANGES)),
             "combination": pd.Categorical.from_codes(
                 pairs["combination"].to_numpy().astype(np.int32),
                 categories=pd.Index(diag.combinations),
@@ -168,13 +262,27 @@ def check_pairs(layout: Layout, props: pd.DataFrame, settings: CheckSettings) ->
             "omega2_end": ends.omega2,
             "omega2_qp": omega2_qp,
             "cb": cb,
+            "line_departure": shape.departure,
+            "inside_jump": shape.jump,
+            "exact_factor": np.where(checked, exact.factor, np.nan),
+            "Mcr_exact": np.where(checked, exact.m_cr, np.nan),
+            "exact_elements": np.where(checked, exact.elements, 0),
+            "exact_note": pd.Categorical.from_codes(
+                np.where(checked, np.where(cantilever, 1, np.where(end_unbraced, 2, 0)), 0).astype(
+                    np.int8
+                ),
+                categories=pd.Index(EXACT_NOTES),
+            ),
             "method": settings.gradient,
+            "factor_basis": basis,
             "factor": factor,
             "Mcr": mcr,
             "M_base": m_base,
             "Mr": mr,
+            "Mr_exact": np.where(checked, mr_exact, np.nan),
             "demand": demand,
             "utilization": utilization,
+            "utilization_exact": utilization_exact,
             "status": status,
             "flags": flag_labels(flags),
         },

@@ -20,6 +20,12 @@ FLAGS: dict[str, str] = {
     "end-unbraced": "the compression flange is not braced at one end: factor 1.0",
     "zero-ends": "both end moments are zero: no end-moment ratio, ω2 = 1.0",
     "assumed-brace": "an end of the segment is held only by an inferred (assumed) brace",
+    "code-factor-high": "the design-basis factor is more than 5 % above the exact factor of this "
+    "diagram (elastic buckling analysis): the code's shortcut overestimates Mcr here; the factor "
+    "used is limited to the exact factor unless [check] limit_to_exact = false",
+    "not-end-moments": "the end-moment formula was used on a diagram that is not end moments "
+    "only: an inside station lies more than 5 % of |M|max off the straight line between the end "
+    "moments, or the moment jumps inside (see the departure and jump columns)",
 }
 
 

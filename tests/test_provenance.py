@@ -101,7 +101,14 @@ def test_settings_filters_and_command_line_are_recorded(tmp_path):
         "section": "mm",
         "stress": "MPa",
     }
-    assert s["check"] == {"gradient": "cb", "E": 200000.0, "G": 77000.0, "phi": 0.85}
+    assert s["check"] == {
+        "gradient": "cb",
+        "E": 200000.0,
+        "G": 77000.0,
+        "phi": 0.85,
+        "load_height": "shear_centre",
+        "limit_to_exact": True,
+    }
     assert s["combinations"] == ["ULS-1 gravity"]
     assert s["files"]["forces"] == "forces.csv"
     assert s["columns"]["forces"]["M"] == "M"
