@@ -59,6 +59,7 @@ def main() -> int:
             c["half-written"] += half
             if crash or wrong or half:
                 failures.append(detail)
+                print(detail, flush=True)
             if n % 500 == 0:
                 print(f"  {n} runs, {len(failures)} failing, {time.perf_counter() - t0:.0f} s")
     a.failures.write_text("\n\n".join(failures) + ("\n" if failures else ""), encoding="utf-8")
