@@ -93,6 +93,12 @@ MUST_REFUSE = frozenset({"extra-field", "drop-last-field", "cut-row", "settings-
 EMPTY_KINDS = frozenset({"header-only", "empty-file"})
 OPTIONAL_TABLES = frozenset({"braces", "supports"})
 
+#: Optional numeric columns, where an empty cell means "not given" (README, input reference): the
+#: root radius then is 0, fy the settings' default, an override the computed property.
+OPTIONAL_NUMBERS = frozenset(
+    {"r", "fy", "A", "Ix", "Iy", "Sx", "Zx", "J", "Cw", "N", "V", "M_minor", "T"}
+)
+
 #: Far outside any frame or I-section [mm]: such a value must be refused, whatever the ranges the
 #: readers choose (common practice: no building is 100 km across; no plate is 10 m thick).
 IMPLAUSIBLE_COORDINATE_MM = 1.0e8
@@ -443,6 +449,8 @@ def _accepted_wrongly(
     decimal = model.settings.decimal
     written = _as_number(damage.new, decimal)
     old = _as_number(damage.old, decimal)
+    if written is None and not damage.new.strip() and damage.column in OPTIONAL_NUMBERS:
+        return False, ""  # an empty optional cell means "not given": its documented default
     if written is None:
         return True, f"the text {damage.new!r} is not a finite number but was read as {value!r}"
     if damage.column in ("x", "y", "z") and abs(value) > IMPLAUSIBLE_COORDINATE_MM:
