@@ -10,12 +10,22 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
+import numpy as np
 import pandas as pd
-from flangewise.engine.check import CheckResult
+from flangewise.engine import buckling
+from flangewise.engine.check import EXACT_MARGIN, LINE_SHARE, CheckResult
 from flangewise.engine.flags import FLAGS
-from flangewise.engine.gradient import INSIDE_TOLERANCE, MIN_INSIDE_STATIONS
+from flangewise.engine.gradient import (
+    END_TOLERANCE_MM,
+    INSIDE_TOLERANCE,
+    MIN_INSIDE_STATIONS,
+    OMEGA2_CAP,
+    STATION_MERGE_MM,
+)
 from flangewise.engine.resistance import INELASTIC_SWITCH
 from flangewise.engine.sections import FLANGE_LIMITS, WEB_LIMITS
+from flangewise.engine.segments import FLANGES
+from flangewise.postproc.exports import LOAD_HEIGHT_WORDS
 from flangewise.postproc.names import UnknownName, unknown_names_message
 
 KNM = 1.0e6
@@ -25,7 +35,11 @@ METHOD_NAMES = {
     "end_moment": "end-moment ω2",
     "quarter_point": "quarter-point ω2",
     "cb": "Cb",
+    "exact": "exact factor",
 }
+
+#: How the exact analysis is cited wherever its result is shown.
+EXACT_CITATION = "elastic buckling analysis (Vlasov beam theory, fork supports)"
 
 
 @dataclass(frozen=True)
@@ -66,16 +80,27 @@ def find_pair(result: CheckResult, segment: str, combination: str) -> pd.Series:
     return hit.iloc[0]
 
 
-def derivation(result: CheckResult, row: pd.Series) -> list[Step]:
-    """Return the steps from section properties to utilization for one result row."""
+def derivation(result: CheckResult, row: pd.Series, analysis: bool = False) -> list[Step]:
+    """Return the steps from section properties to utilization for one result row.
+
+    Args:
+        result: the check's results.
+        row: one row of ``result.results`` (its index label is its run number).
+        analysis: also show the exact buckling analysis itself, with a run on a doubled mesh
+            (``explain``; the report leaves it out).
+    """
     seg = result.layout.segments.table.loc[row["segment"]]
     props = result.sections.loc[row["section"]]
     s = result.settings
+    x, m = run_diagram(result, row)
+    shape = diagram_departure(row, x, m)
+    extra = [_analysis_step(result, row, props, x, m)] if analysis else []
     steps = [
         _section_step(row, props),
         _length_step(row, seg),
-        _diagram_step(row),
-        _gradient_step(row, seg),
+        _diagram_step(row, shape),
+        _gradient_step(row, seg, shape, s.limit_to_exact),
+        *extra,
         Step(
             "Elastic critical moment",
             "SANS 10162-1:2011, cl. 13.6(a)",
@@ -148,7 +173,76 @@ def _length_step(row: pd.Series, seg: pd.Series) -> Step:
     return Step("Unbraced length", "segment between points that hold the flange", lines)
 
 
-def _diagram_step(row: pd.Series) -> Step:
+def run_diagram(result: CheckResult, row: pd.Series) -> tuple[np.ndarray, np.ndarray]:
+    """Return the stations [mm from the segment start] and moments [N·mm] of one result row.
+
+    Results row ``i`` is run ``i`` of the diagrams; the moments are positive where they compress
+    the segment's flange.
+    """
+    d = result.layout.diagrams
+    i = int(row.name)  # type: ignore[arg-type]
+    a, b = int(d.offsets[i]), int(d.offsets[i + 1])
+    return d.x[a:b], d.m[a:b]
+
+
+@dataclass(frozen=True)
+class Departure:
+    """Where one diagram leaves the straight line between its end moments.
+
+    Attributes:
+        share: largest distance of a station from that line ÷ |M|max (the results' value) [-].
+        at: where that station is, from the segment start [mm] (NaN without stations).
+        jump: the largest moment jump inside the segment [N·mm] (0 when there is none).
+        jump_at: where it is [mm] (NaN when there is none).
+    """
+
+    share: float
+    at: float
+    jump: float
+    jump_at: float
+
+
+def diagram_departure(row: pd.Series, x: np.ndarray, m: np.ndarray) -> Departure:
+    """Locate the largest departure from the end-moment line, and the largest inside jump.
+
+    The measures are those of the check (``engine.check.diagram_shape``); this finds where.
+    """
+    if len(x) == 0:
+        return Departure(float(row["line_departure"]), math.nan, 0.0, math.nan)
+    length = float(row["length"])
+    t = np.clip(x / length, 0.0, 1.0) if length > 0 else np.zeros(len(x))
+    line = m[0] + (m[-1] - m[0]) * t
+    at = float(x[int(np.argmax(np.abs(m - line)))])
+    step = np.abs(np.diff(m))
+    place = (np.diff(x) <= STATION_MERGE_MM) & (x[:-1] > END_TOLERANCE_MM)
+    place &= x[:-1] < length - END_TOLERANCE_MM
+    step = np.where(place, step, 0.0)
+    k = int(np.argmax(step)) if len(step) else 0
+    big = len(step) and step[k] > LINE_SHARE * float(row["M_max"])
+    return Departure(
+        float(row["line_departure"]),
+        at,
+        float(step[k]) if big else 0.0,
+        float(x[k]) if big else math.nan,
+    )
+
+
+def _departure_words(d: Departure) -> str:
+    """'inside station 12 % of |M|max off the straight line at 1.500 m; a jump of …'."""
+    words = (
+        f"largest departure from the straight line between the end moments: "
+        f"{d.share * 100:.0f} % of |M|max, at {d.at / M:.3f} m"
+        if math.isfinite(d.at)
+        else "no stations"
+    )
+    if d.jump > 0:
+        words += f"; a jump of {d.jump / KNM:.2f} kN·m at {d.jump_at / M:.3f} m"
+    else:
+        words += "; no moment jump inside"
+    return words
+
+
+def _diagram_step(row: pd.Series, shape: Departure) -> Step:
     flange = row["flange"]
     sign = (
         "moments as the model gives them"
@@ -171,11 +265,32 @@ def _diagram_step(row: pd.Series) -> Step:
             peak,
             f"|M| at L/4, L/2, 3L/4 = {row['M_a'] / KNM:.2f}, {row['M_b'] / KNM:.2f}, "
             f"{row['M_c'] / KNM:.2f} kN·m",
+            _departure_words(shape),
         ],
     )
 
 
-def _gradient_step(row: pd.Series, seg: pd.Series) -> Step:
+def _exact_line(row: pd.Series) -> str:
+    """The exact factor beside the code factors, or why there is none."""
+    factor = row["exact_factor"]
+    if math.isfinite(factor):
+        return f"exact factor = Mcr exact / Mcr of uniform moment = {factor:.3f} [{EXACT_CITATION}]"
+    return f"exact factor: none ({no_exact_reason(row)})"
+
+
+def no_exact_reason(row: pd.Series) -> str:
+    """Why a row has no exact factor."""
+    note = str(row["exact_note"])
+    if note:
+        return note
+    if row["status"] == "not critical":
+        return "the flange is nowhere in compression"
+    if row["status"] == "not checked":
+        return "class 4 section: not checked"
+    return "the diagram has no length to analyse"
+
+
+def _gradient_step(row: pd.Series, seg: pd.Series, shape: Departure, limit_to_exact: bool) -> Step:
     kappa = row["kappa"]
     lines = []
     if math.isnan(kappa):
@@ -210,13 +325,22 @@ def _gradient_step(row: pd.Series, seg: pd.Series) -> Step:
         lines.append(
             f"  applies: no moment inside exceeds the larger end moment ({large:.2f} kN·m)"
         )
+    if "not-end-moments" in flags:
+        lines.append(
+            "  BUT NOT END MOMENTS ONLY (flag not-end-moments): "
+            + _off_line_words(shape)
+            + "; the formula assumes a straight diagram between the end moments"
+        )
     lines.append(
         f"quarter-point ω2 = 4·Mmax/√(Mmax² + 4Ma² + 7Mb² + 4Mc²) = {row['omega2_qp']:.3f} "
         "(≤ 2.5) [CSA S16-14, cl. 13.6(a)(ii)]"
     )
+    held = f" (held to {OMEGA2_CAP} where Cb is the basis)" if row["cb"] > OMEGA2_CAP else ""
     lines.append(
-        f"Cb = 12.5·Mmax/(2.5·Mmax + 3MA + 4MB + 3MC) = {row['cb']:.3f} [AISC 360-16, Eq. F1-1]"
+        f"Cb = 12.5·Mmax/(2.5·Mmax + 3MA + 4MB + 3MC) = {row['cb']:.3f}{held} "
+        "[AISC 360-16, Eq. F1-1]"
     )
+    lines.append(_exact_line(row))
     method = METHOD_NAMES[str(row["method"])]
     if seg["cantilever"]:
         why = "cantilever segment: 1.0"
@@ -226,10 +350,92 @@ def _gradient_step(row: pd.Series, seg: pd.Series) -> Step:
         why = "too few stations inside the segment: 1.0"
     elif row["method"] == "end_moment" and flags & {"peak-inside", "zero-ends"}:
         why = "the end-moment formula does not apply here: 1.0"
+    elif row["method"] == "cb" and row["cb"] > OMEGA2_CAP:
+        why = f"Cb applies, held to {OMEGA2_CAP}"
     else:
         why = f"{method} applies"
-    lines.append(f"design basis: {method} → factor used = {row['factor']:.3f} ({why})")
+    lines.append(f"design basis: {method} → factor basis = {row['factor_basis']:.3f} ({why})")
+    lines.extend(_limit_lines(row, "code-factor-high" in flags, limit_to_exact))
     return Step("Moment-gradient factor", "see each line", lines)
+
+
+def _off_line_words(d: Departure) -> str:
+    """The departure named: '12 % of |M|max off …', or 'a jump of 48.00 kN·m at 1.500 m'."""
+    parts = []
+    if d.share > LINE_SHARE and math.isfinite(d.at):
+        parts.append(
+            f"inside station {d.share * 100:.0f} % of |M|max off the straight line, at "
+            f"{d.at / M:.3f} m"
+        )
+    if d.jump > 0:
+        parts.append(f"a jump of {d.jump / KNM:.2f} kN·m at {d.jump_at / M:.3f} m")
+    return " and ".join(parts)
+
+
+def _limit_lines(row: pd.Series, high: bool, limit_to_exact: bool) -> list[str]:
+    """The factor used, and when the code factor is above the exact one, what was done."""
+    used = f"factor used = {row['factor']:.3f}"
+    if not high:
+        return [used]
+    bound = (1.0 + EXACT_MARGIN) * row["exact_factor"]
+    lines = [
+        f"  CODE FACTOR HIGH (flag code-factor-high): {row['factor_basis']:.3f} > "
+        f"{1.0 + EXACT_MARGIN:.2f} × exact factor {row['exact_factor']:.3f} = {bound:.3f}: "
+        "the code's shortcut overestimates Mcr for this diagram"
+    ]
+    if limit_to_exact:
+        lines.append(f"{used} (limited to the exact factor: [check] limit_to_exact = true)")
+    else:
+        lines.append(
+            f"{used} (NOT limited: [check] limit_to_exact = false; on the unsafe side of the "
+            "exact analysis)"
+        )
+    return lines
+
+
+def _analysis_step(
+    result: CheckResult, row: pd.Series, props: pd.Series, x: np.ndarray, m: np.ndarray
+) -> Step:
+    """The exact analysis of this one diagram, and its change when the mesh is doubled."""
+    s = result.settings
+    e_iy = np.array([s.E * props["Iy"]])
+    g_j = np.array([s.G * props["J"]])
+    e_cw = np.array([s.E * props["Cw"]])
+    uniform = float(buckling.m_cr_uniform(np.array([row["length"]]), e_iy, g_j, e_cw)[0])
+    flange = np.array([list(FLANGES).index(str(row["flange"]))])
+    height = buckling.load_heights(flange, np.array([props["d"] - props["tf"]]), s.load_height)
+    lines = [
+        "the segment's own moment diagram (every station a node, M linear between stations); "
+        "fork supports at both ends: lateral deflection and twist held, lateral rotation and "
+        "warping free",
+        f"load height: {LOAD_HEIGHT_WORDS[s.load_height]} ([check] load_height); here "
+        f"a = {height[0] + 0.0:+.1f} mm above the shear centre, towards the flange in compression"
+        + (
+            " (a member steeper than 45° has no top or bottom: taken at the shear centre)"
+            if str(row["flange"]) == "either"
+            else ""
+        ),
+        f"Mcr of uniform moment = (π/L)·√(E·Iy·G·J + (π·E/L)²·Iy·Cw) = {uniform / KNM:.1f} kN·m "
+        "[Timoshenko & Gere (1961), ch. 6]",
+    ]
+    if not math.isfinite(row["exact_factor"]):
+        lines.append(f"not analysed: {no_exact_reason(row)}; the exact columns are empty")
+        return Step("Exact elastic buckling analysis", EXACT_CITATION, lines)
+    n = int(row["exact_elements"])
+    mcr = float(row["Mcr_exact"])
+    base = 2 * buckling.BASE_ELEMENTS
+    mesh = buckling.build_mesh(x, m, np.array([0, len(x)]), base=base)
+    finer = float(buckling.critical_moments(mesh, e_iy, g_j, e_cw, height, workers=1)[0])
+    change = (finer - mcr) / mcr
+    lines += [
+        f"finite elements: {n} cubic Hermite elements (DOF u, u′, φ, φ′ per node)",
+        f"eigenvalue: Mcr exact = {mcr / KNM:.1f} kN·m (the largest |M| of this diagram at "
+        "buckling)",
+        f"exact factor = {mcr / KNM:.1f} / {uniform / KNM:.1f} = {row['exact_factor']:.3f}",
+        f"mesh doubled ({int(mesh.n_elements[0])} elements): Mcr exact = {finer / KNM:.1f} kN·m, "
+        f"change {change * 100:+.4f} %",
+    ]
+    return Step("Exact elastic buckling analysis", EXACT_CITATION, lines)
 
 
 def _resistance_step(row: pd.Series, phi: float) -> Step:
@@ -260,22 +466,31 @@ def _demand_lines(row: pd.Series) -> list[str]:
         return [f"the {row['flange']} flange is nowhere in compression: not critical"]
     if row["status"] == "not checked":
         return ["class 4 section: not checked"]
-    return [
+    lines = [
         f"demand = largest moment compressing the {row['flange']} flange = "
         f"{row['demand'] / KNM:.2f} kN·m",
         f"utilization = {row['demand'] / KNM:.2f} / {row['Mr'] / KNM:.1f} = "
         f"{row['utilization']:.3f} → {str(row['status']).upper()}",
     ]
+    if math.isfinite(row["Mr_exact"]):
+        lines.append(
+            f"with the exact factor: Mcr exact = {row['Mcr_exact'] / KNM:.1f} kN·m, Mr exact = "
+            f"{row['Mr_exact'] / KNM:.1f} kN·m, utilization exact = {row['demand'] / KNM:.2f} / "
+            f"{row['Mr_exact'] / KNM:.1f} = {row['utilization_exact']:.3f}"
+        )
+    else:
+        lines.append(f"no exact utilization: {no_exact_reason(row)}")
+    return lines
 
 
 def derivation_text(result: CheckResult, row: pd.Series) -> str:
-    """Return the derivation as plain text for the terminal."""
+    """Return the derivation as plain text for the terminal, the exact analysis included."""
     lines = [
         f"Segment {row['segment']} (member {row['member']}, {row['flange']} flange), "
         f"load combination {row['combination']}",
         "",
     ]
-    for i, step in enumerate(derivation(result, row), start=1):
+    for i, step in enumerate(derivation(result, row, analysis=True), start=1):
         lines.append(f"{i}. {step.title}   [{step.clause}]")
         lines.extend(f"   {line}" for line in step.lines)
         lines.append("")

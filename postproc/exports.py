@@ -17,7 +17,7 @@ import numpy as np
 import pandas as pd
 import pyarrow as pa
 import pyarrow.csv as pacsv
-from flangewise.engine.check import CheckResult
+from flangewise.engine.check import EXACT_MARGIN, CheckResult
 from flangewise.engine.flags import FLAGS
 
 CAUTION = (
@@ -39,7 +39,13 @@ METHOD_WORDS = {
     "end_moment": "end-moment ω2 (SANS 10162-1 cl. 13.6(a))",
     "quarter_point": "quarter-point ω2 (CSA S16-14 cl. 13.6(a)(ii))",
     "cb": "Cb (AISC 360-16 Eq. F1-1)",
+    "exact": "exact factor: Mcr from a rational elastic buckling analysis of each segment's own "
+    "moment diagram (Vlasov beam theory, fork supports), not a code formula; its acceptance as a "
+    "design basis is for the engineer and the local design code to confirm",
 }
+
+#: The share of |M|max column's header: a dimensionless share, named for what it divides by.
+DEPARTURE = "departure from line [share of |M| max]"
 
 
 def segment_table(result: CheckResult) -> pd.DataFrame:
@@ -76,15 +82,25 @@ def segment_table(result: CheckResult) -> pd.DataFrame:
             "ω2 end-moment": r["omega2_end"].to_numpy(),
             "ω2 quarter-point": r["omega2_qp"].to_numpy(),
             "Cb": r["cb"].to_numpy(),
+            "exact factor": r["exact_factor"].to_numpy(),
+            DEPARTURE: r["line_departure"].to_numpy(),
+            "jump inside": pd.Categorical.from_codes(
+                r["inside_jump"].to_numpy().astype(np.int8), categories=pd.Index(["no", "yes"])
+            ),
             "basis": r["method"].array,
+            "factor basis": r["factor_basis"].to_numpy(),
             "factor used": r["factor"].to_numpy(),
             "Mcr [kN·m]": r["Mcr"].to_numpy() / KNM,
+            "Mcr exact [kN·m]": r["Mcr_exact"].to_numpy() / KNM,
             "Mp or My [kN·m]": r["M_base"].to_numpy() / KNM,
             "Mr [kN·m]": r["Mr"].to_numpy() / KNM,
+            "Mr exact [kN·m]": r["Mr_exact"].to_numpy() / KNM,
             "demand [kN·m]": r["demand"].to_numpy() / KNM,
             "utilization": r["utilization"].to_numpy(),
+            "utilization exact": r["utilization_exact"].to_numpy(),
             "status": r["status"].array,
             "flags": r["flags"].array,
+            "exact note": r["exact_note"].array,
         }
     )
 
@@ -179,6 +195,9 @@ def summary(
         "E [MPa]": result.settings.E,
         "G [MPa]": result.settings.G,
         "phi": result.settings.phi,
+        "load height": result.settings.load_height,
+        "limit to exact": result.settings.limit_to_exact,
+        "exact analysis": exact_counts(checked),
         "result": outcome(counts),
         "members": int(segments["member"].nunique()),
         "segments": int(segments["segment"].nunique()),
@@ -189,6 +208,31 @@ def summary(
         "flags": flag_counts(segments),
         "flag meanings": FLAGS,
         "caution": CAUTION,
+    }
+
+
+#: What each load height means, in the words the outputs use.
+LOAD_HEIGHT_WORDS = {
+    "shear_centre": "loads at the shear centre (neither destabilising nor stabilising)",
+    "top_flange": "loads on the top flange (destabilising where they act downwards on a beam "
+    "whose top flange is in compression)",
+    "bottom_flange": "loads on the bottom flange (stabilising where they hang below a beam whose "
+    "top flange is in compression)",
+}
+
+
+def exact_counts(checked: pd.DataFrame) -> dict[str, Any]:
+    """How many checked pairs have an exact factor, and why the others have none.
+
+    Args:
+        checked: the checked rows of the segment table (status "ok" or "over").
+    """
+    has = np.isfinite(checked["exact factor"].to_numpy(dtype=np.float64))
+    notes = checked["exact note"].astype(str).to_numpy()[~has]
+    why = pd.Series(notes).replace("", "no exact factor").value_counts()
+    return {
+        "pairs with an exact factor": int(has.sum()),
+        "pairs without": {str(k): int(v) for k, v in why.items()},
     }
 
 
@@ -269,8 +313,33 @@ def summary_text(info: dict[str, Any]) -> str:
         "Flags          : "
         + (", ".join(f"{k} {v}" for k, v in flagged.items()) if flagged else "none")
     )
+    lines.extend(exact_lines(info))
     lines.append(outcome_line(info["result"]))
     return "\n".join(lines)
+
+
+def exact_lines(info: dict[str, Any]) -> list[str]:
+    """The exact analysis in the terminal summary: its reach, load height and the limit."""
+    exact = info["exact analysis"]
+    without = "; ".join(f"{n} {why}" for why, n in exact["pairs without"].items())
+    high = info["flags"].get("code-factor-high", 0)
+    limit = (
+        "limited to the exact factor ([check] limit_to_exact)"
+        if info["limit to exact"]
+        else "NOT limited ([check] limit_to_exact = false): the code factor is used"
+    )
+    lines = [
+        f"Exact analysis : {exact['pairs with an exact factor']} of {info['pairs checked']} "
+        "checked pairs (elastic buckling analysis, Vlasov beam theory, fork supports)"
+        + (f"; without: {without}" if without else ""),
+        f"Load height    : {LOAD_HEIGHT_WORDS[info['load height']]}",
+    ]
+    if high:
+        lines.append(
+            f"Code factor    : more than {EXACT_MARGIN * 100:.0f} % above the exact factor in "
+            f"{high} pair(s) (flag code-factor-high): {limit}"
+        )
+    return lines
 
 
 def outcome_line(result: dict[str, Any]) -> str:

@@ -16,11 +16,11 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
-from flangewise.engine.check import CheckResult
+from flangewise.engine.check import EXACT_MARGIN, CheckResult
 from flangewise.engine.diagrams import member_diagram, station_key
 from flangewise.engine.flags import FLAGS
-from flangewise.postproc.derivation import derivation
-from flangewise.postproc.exports import CAUTION, METHOD_WORDS
+from flangewise.postproc.derivation import EXACT_CITATION, derivation, no_exact_reason
+from flangewise.postproc.exports import CAUTION, LOAD_HEIGHT_WORDS, METHOD_WORDS
 from flangewise.postproc.svg import Marker, moment_diagram, utilization_bars
 
 KNM = 1.0e6
@@ -28,9 +28,15 @@ M = 1.0e3
 
 SCOPE = (
     "Scope: lateral-torsional buckling in major-axis bending only. Not checked: axial force and "
-    "interaction, shear, class 4 sections, load applied above the shear centre, effective-length "
-    "factors for cantilevers, the braces themselves (see the README, Scope and limits)."
+    "interaction, shear, class 4 sections, load applied above the shear centre in the code "
+    "factors (only the exact analysis takes a load height, [check] load_height), "
+    "effective-length factors for cantilevers, the braces themselves (see the README, Scope and "
+    "limits)."
 )
+
+#: Flags that ask the engineer to act: the factor of the design basis was on the unsafe side of
+#: the exact analysis. Their segments come first after the governing ones.
+ACTIONABLE = ("code-factor-high",)
 
 #: At most this many segment sections (governing first, then flagged); the rest are counted.
 MAX_SECTIONS = 200
@@ -87,8 +93,9 @@ def build_report(
     """
     r = result.results
     gov = _governing(r)
+    actionable = r.index[np.logical_or.reduce([r[f"flag_{n}"].to_numpy() for n in ACTIONABLE])]
     flagged = r.index[r["flags"].astype(str) != ""]
-    picked = list(dict.fromkeys([*gov.index, *flagged]))
+    picked = list(dict.fromkeys([*gov.index, *actionable, *flagged]))
     shown, omitted = picked[:MAX_SECTIONS], max(0, len(picked) - MAX_SECTIONS)
     key = station_key(result.layout.diagrams, result.layout.members)
     body = [
@@ -96,7 +103,13 @@ def build_report(
         _overview(result, gov, omitted, outcome, no_forces),
         "<h2>Governing and flagged segments</h2>",
     ]
-    reasons = {i: ("governing" if i in gov.index else "flagged") for i in shown}
+    acting = set(actionable)
+    reasons = {
+        i: (
+            "governing" if i in gov.index else ("flagged, actionable" if i in acting else "flagged")
+        )
+        for i in shown
+    }
     body.extend(_segment_section(result, r.loc[i], reasons[i], key) for i in shown)
     return (
         "<!DOCTYPE html>\n<html lang='en'><head><meta charset='utf-8'>"
@@ -123,9 +136,24 @@ def _header(result: CheckResult, folder: Path, settings_text: str, selection: st
         f"flangewise {escape(version('flangewise'))} · {when}</p>"
         f"<p class='meta'>Design basis: {escape(METHOD_WORDS[s.gradient])}; E = {s.E:.0f} MPa, "
         f"G = {s.G:.0f} MPa, φ = {s.phi}</p>"
+        f"<p class='meta'>Exact factor: {escape(EXACT_CITATION)}; "
+        f"{escape(LOAD_HEIGHT_WORDS[s.load_height])}. {escape(_limit_words(s.limit_to_exact))}"
+        "</p>"
         + (f"<p class='meta'>Only part of the model: {escape(selection)}</p>" if selection else "")
         + f"<div class='caution'>{escape(CAUTION)}</div>"
         f"<p class='meta'>{escape(SCOPE)}</p>"
+    )
+
+
+def _limit_words(limit_to_exact: bool) -> str:
+    """What happens to a code factor more than the margin above the exact factor."""
+    margin = f"more than {EXACT_MARGIN * 100:.0f} % above the exact factor"
+    if limit_to_exact:
+        return f"A design-basis factor {margin} is limited to it ([check] limit_to_exact = true)."
+    return (
+        f"A design-basis factor {margin} is NOT limited ([check] limit_to_exact = false): such "
+        "pairs are flagged code-factor-high and their factor is on the unsafe side of the exact "
+        "analysis."
     )
 
 
@@ -145,12 +173,27 @@ def _overview(
         ),
         ("pairs NOT CHECKED (class 4)", int((status == "not checked").sum())),
         ("pairs over 1.0", int((status == "over").sum())),
+        (
+            "checked pairs with an exact factor",
+            int((status.isin(["ok", "over"]) & np.isfinite(r["exact_factor"])).sum()),
+        ),
+        (
+            f"pairs whose code factor is more than {EXACT_MARGIN * 100:.0f} % above the exact "
+            "factor (code-factor-high, actionable)",
+            int(r["flag_code-factor-high"].sum()),
+        ),
+        (
+            "pairs given the end-moment formula on a diagram that is not end moments only "
+            "(not-end-moments)",
+            int(r["flag_not-end-moments"].sum()),
+        ),
     ]
     rows = "".join(f"<tr><td>{escape(k)}</td><td class='num'>{v}</td></tr>" for k, v in counts)
     nearest = "".join(
         f"<tr><td>{escape(str(g['member']))}</td><td>{escape(str(g['segment']))}</td>"
         f"<td>{escape(str(g['combination']))}</td><td class='num'>{g['length'] / M:.2f}</td>"
-        f"<td class='num'>{g['factor']:.2f}</td><td class='num'>{g['Mr'] / KNM:.1f}</td>"
+        f"<td class='num'>{g['factor']:.2f}</td><td class='num'>{_maybe(g['exact_factor'])}</td>"
+        f"<td class='num'>{g['Mr'] / KNM:.1f}</td>"
         f"<td class='num {'over' if g['utilization'] > 1 else ''}'>{g['utilization']:.3f}</td>"
         "</tr>"
         for _, g in gov.head(10).iterrows()
@@ -179,7 +222,7 @@ def _overview(
         + _no_forces(no_forces)
         + "<h3>Members nearest failure</h3>"
         "<table><tr><th>member</th><th>segment</th><th>load combination</th><th>Lu [m]</th>"
-        "<th>factor</th><th>Mr [kN·m]</th><th>utilization</th></tr>"
+        "<th>factor used</th><th>exact factor</th><th>Mr [kN·m]</th><th>utilization</th></tr>"
         f"{nearest}</table>"
         + utilization_bars(names, vals, "utilization-chart")
         + (
@@ -193,6 +236,11 @@ def _overview(
         + "</table>"
         + more
     )
+
+
+def _maybe(value: float, digits: int = 2) -> str:
+    """A number, or a dash where there is none (NaN)."""
+    return f"{value:.{digits}f}" if np.isfinite(value) else "–"
 
 
 def _no_forces(members: Sequence[str]) -> str:
@@ -262,14 +310,19 @@ def _segment_section(result: CheckResult, row: pd.Series, reason: str, key: np.n
         else escape(str(row["status"]))
     )
     flags = escape(str(row["flags"])) or "none"
+    exact = (
+        f"exact factor {row['exact_factor']:.3f}"
+        if np.isfinite(row["exact_factor"])
+        else f"no exact factor ({escape(no_exact_reason(row))})"
+    )
     return (
         f"<section class='segment' id='{escape(svg_id.replace('diagram-', 'seg-'))}'>"
         f"<h3>{escape(str(row['segment']))} · {escape(str(row['combination']))} "
         f"({reason})</h3>"
         f"<p>Member {escape(member)}, section {escape(str(row['section']))}; "
         f"compression checked in the <b>{flange}</b>; from node {escape(str(seg['node_start']))}"
-        f" to {escape(str(seg['node_end']))}, Lu = {row['length'] / M:.3f} m; {verdict}; "
-        f"flags: {flags}.</p>"
+        f" to {escape(str(seg['node_end']))}, Lu = {row['length'] / M:.3f} m; factor used "
+        f"{row['factor']:.3f}, {exact}; {verdict}; flags: {flags}.</p>"
         f"{chart}"
         "<p class='meta'>▼ top flange braced · ▲ bottom flange braced · shaded: this segment</p>"
         f"<table class='steps'><tr><th>step</th><th>working</th><th>clause</th></tr>{steps}"
