@@ -189,19 +189,46 @@ def _assemble(blocks: np.ndarray, n_el: int) -> np.ndarray:
     return out
 
 
-def _fork(a: np.ndarray, stiffness: bool) -> np.ndarray:
-    """Hold the DOF of the fork supports (w at the first and last node), in place.
+def _free(n_el: int) -> np.ndarray:
+    """DOF of one field left free by the fork supports: all but w at the first and last node."""
+    keep = np.ones(2 * n_el + 2, dtype=bool)
+    keep[[0, 2 * n_el]] = False
+    return np.flatnonzero(keep)
 
-    Rather than dropping rows and columns (a copy of every matrix), the held DOF are decoupled:
-    their rows and columns are zeroed, with 1 on the diagonal of a stiffness matrix. Each then adds
-    an eigenvalue μ = 0 (λ = ∞), which never competes with the largest positive μ.
+
+def _reduce(a: np.ndarray, free: np.ndarray) -> np.ndarray:
+    """Rows and columns ``free`` of every stacked matrix (the fork supports' DOF dropped)."""
+    return a[:, free[:, None], free[None, :]]
+
+
+def stiffness_groups(mesh: Mesh, e_iy: np.ndarray, g_j: np.ndarray, e_cw: np.ndarray) -> np.ndarray:
+    """Number the runs whose stiffness matrices are identical (same elements, same section).
+
+    K depends only on a run's element lengths and section, not on its moments: every load
+    combination of one segment has the same stations, so one Cholesky factorization serves them
+    all. Runs with another element count are never in one group.
+
+    Returns:
+        per run, a group number; runs without elements get -1.
     """
-    for i in (0, a.shape[-1] - 2):
-        a[:, i, :] = 0.0
-        a[:, :, i] = 0.0
-        if stiffness:
-            a[:, i, i] = 1.0
-    return a
+    n_runs = len(mesh.n_elements)
+    group = np.full(n_runs, -1, dtype=np.int64)
+    starts = np.cumsum(mesh.n_elements) - mesh.n_elements
+    top = 0
+    for n_el in np.unique(mesh.n_elements[mesh.n_elements > 0]):  # a few dozen element counts
+        runs = np.flatnonzero(mesh.n_elements == n_el)
+        el = starts[runs][:, None] + np.arange(n_el)[None, :]
+        key = np.column_stack([mesh.length[el], e_iy[runs], g_j[runs], e_cw[runs]])
+        _, inverse = np.unique(key, axis=0, return_inverse=True)
+        inverse = inverse.reshape(-1)
+        group[runs] = top + inverse
+        top += int(inverse.max()) + 1
+    return group
+
+
+def _inverse_factor(k: np.ndarray) -> np.ndarray:
+    """Return W = L⁻¹ with K = L·Lᵀ for every stacked symmetric positive definite K."""
+    return np.linalg.inv(np.linalg.cholesky(k))
 
 
 def _solve_chunk(
@@ -213,21 +240,33 @@ def _solve_chunk(
     g_j: np.ndarray,
     e_cw: np.ndarray,
     height: np.ndarray,
+    group: np.ndarray,
 ) -> np.ndarray:
     """Mcr [N·mm] of the runs ``runs``, which all have ``n_el`` elements."""
+    free = _free(n_el)
+    # One factorization per stiffness group: W = L⁻¹ with K = L·Lᵀ, for u and for φ.
+    _ids, first, local = np.unique(group[runs], return_index=True, return_inverse=True)
+    rep = runs[first]
+    el_rep = (starts[rep][:, None] + np.arange(n_el)[None, :]).ravel()
+    rr = np.repeat(rep, n_el)
+    zero = np.zeros(len(el_rep))
+    k_u, k_phi, _ = element_matrices(mesh.length[el_rep], zero, zero, e_iy[rr], g_j[rr], e_cw[rr])
+    w_u = _inverse_factor(_reduce(_assemble(k_u, n_el), free))
+    w_phi = _inverse_factor(_reduce(_assemble(k_phi, n_el), free))
+    # Per run only the moment coupling: B = L_u⁻¹·G_uφ·L_φ⁻ᵀ.
     el = (starts[runs][:, None] + np.arange(n_el)[None, :]).ravel()
-    rr = np.repeat(runs, n_el)
-    k_u, k_phi, c = element_matrices(
-        mesh.length[el], mesh.m0[el], mesh.m1[el], e_iy[rr], g_j[rr], e_cw[rr]
+    ell = mesh.length[el]
+    t = np.ones((len(el), 4))
+    t[:, 1] = ell
+    t[:, 3] = ell
+    c = (
+        (t[:, :, None] * t[:, None, :])
+        * (mesh.m0[el][:, None, None] * _C0 + mesh.m1[el][:, None, None] * _C1)
+        / ell[:, None, None]
     )
-    ku = _fork(_assemble(k_u, n_el), stiffness=True)
-    kphi = _fork(_assemble(k_phi, n_el), stiffness=True)
-    g = _fork(_assemble(c, n_el), stiffness=False)
-    lu = np.linalg.cholesky(ku)
-    lphi = np.linalg.cholesky(kphi)
-    # B = L_u⁻¹·G_uφ·L_φ⁻ᵀ
-    b = np.linalg.solve(lu, g)
-    b = np.swapaxes(np.linalg.solve(lphi, np.swapaxes(b, 1, 2)), 1, 2)
+    g = _reduce(_assemble(c, n_el), free)
+    w_phi_run = w_phi[local]
+    b = w_u[local] @ g @ np.swapaxes(w_phi_run, 1, 2)
     a = height[runs]
     loaded = a != 0.0
     out = np.empty(len(runs))
@@ -236,14 +275,13 @@ def _solve_chunk(
         s2 = np.linalg.eigvalsh(np.swapaxes(bb, 1, 2) @ bb)[:, -1]
         out[~loaded] = _inverse(np.sqrt(np.maximum(s2, 0.0)))
     if loaded.any():
-        # ½·Q·a·φ² at each loaded node: the φ DOF of node k is 2k in the φ field.
-        q = (mesh.load[el].reshape(len(runs), n_el) * a[:, None])[loaded]
-        gq = np.zeros((int(loaded.sum()), 2 * n_el + 2, 2 * n_el + 2))
-        idx = 2 * np.arange(n_el)
-        gq[:, idx, idx] = q
-        gq = _fork(gq, stiffness=False)
-        d = np.linalg.solve(lphi[loaded], gq)
-        d = np.swapaxes(np.linalg.solve(lphi[loaded], np.swapaxes(d, 1, 2)), 1, 2)
+        # ½·Q·a·φ² at each loaded node: the φ DOF of node k is 2k in the φ field, 2k − 1 once
+        # the first node's w is dropped; the first and last nodes are supports (no Q·a·φ²).
+        q = mesh.load[el].reshape(len(runs), n_el)[loaded] * a[loaded, None]
+        diag = np.zeros((len(q), len(free)))
+        diag[:, 2 * np.arange(1, n_el) - 1] = q[:, 1:]
+        wl = w_phi_run[loaded]
+        d = (wl * diag[:, None, :]) @ np.swapaxes(wl, 1, 2)
         nu, nphi = b.shape[1], b.shape[2]
         full = np.zeros((len(d), nu + nphi, nu + nphi))
         full[:, :nu, nu:] = b[loaded]
@@ -287,14 +325,17 @@ def critical_moments(
     n_runs = len(mesh.n_elements)
     out = np.full(n_runs, np.nan)
     starts = np.cumsum(mesh.n_elements) - mesh.n_elements
+    group = stiffness_groups(mesh, e_iy, g_j, e_cw)
     jobs = []
     for n_el in np.unique(mesh.n_elements[mesh.n_elements > 0]):
         runs = np.flatnonzero(mesh.n_elements == n_el)
+        # Runs of one stiffness group side by side, so that a chunk factorizes each K once.
+        runs = runs[np.argsort(group[runs], kind="stable")]
         jobs += [(runs[c : c + CHUNK], int(n_el)) for c in range(0, len(runs), CHUNK)]
 
     def work(job: tuple[np.ndarray, int]) -> None:
         runs, n_el = job
-        out[runs] = _solve_chunk(mesh, runs, n_el, starts, e_iy, g_j, e_cw, height)
+        out[runs] = _solve_chunk(mesh, runs, n_el, starts, e_iy, g_j, e_cw, height, group)
 
     with _single_threaded_blas():
         n_workers = min(workers or os.cpu_count() or 1, max(len(jobs), 1))
