@@ -2,7 +2,9 @@
 
 Used by the ``explain`` command (plain text) and the review report (HTML). Every number shown is
 read from the check's results or the section table: nothing is recomputed differently here, so the
-derivation always matches the exported CSV.
+derivation always matches the exported CSV. The one addition is ``explain``'s check of the exact
+analysis: the same segment's diagram solved again on a mesh twice as fine, to show how little the
+eigenvalue moves.
 """
 
 from __future__ import annotations
