@@ -150,7 +150,8 @@ def section_properties(sections: pd.DataFrame) -> pd.DataFrame:
         Same index as ``sections``; columns ``d``, ``b``, ``tf``, ``tw``, ``r`` [mm], ``fy``
         [MPa], ``A`` [mm²], ``Ix``, ``Iy`` [mm⁴], ``Sx``, ``Zx`` [mm³], ``rx``, ``ry`` [mm],
         ``J`` [mm⁴], ``Cw`` [mm⁶] and ``given`` (the overridden names, space-separated in the
-        order above, "" when none).
+        order above, "" when none); ``source`` and ``replaces`` carried unchanged where the
+        input has them.
     """
     dims = {c: sections[c].to_numpy(dtype=float) for c in ("d", "b", "tf", "tw", "r")}
     d, tf = dims["d"], dims["tf"]
@@ -176,7 +177,11 @@ def section_properties(sections: pd.DataFrame) -> pd.DataFrame:
         "Cw": final("Cw", warping_constant(iy, d, tf)),
         "given": _names_given(given),
     }
-    return pd.DataFrame(props, index=sections.index)
+    out = pd.DataFrame(props, index=sections.index)
+    for c in ("source", "replaces"):  # where the properties came from: carried for the report
+        if c in sections:
+            out[c] = sections[c].to_numpy()
+    return out
 
 
 def _names_given(given: dict[str, Floats]) -> npt.NDArray[np.str_]:

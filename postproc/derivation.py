@@ -139,13 +139,13 @@ def _section_step(row: pd.Series, p: pd.Series) -> Step:
     hw = (p["d"] - 2.0 * p["tf"]) / p["tw"]
     cls = int(row["section_class"])
     base = "Mp = Zx·fy" if cls <= 2 else "My = Sx·fy"
-    given = f" (given in the sections table: {p['given']})" if p["given"] else ""
     lines = [
         f"{row['section']}: d = {p['d']:.1f}, b = {p['b']:.1f}, tf = {p['tf']:.1f}, "
         f"tw = {p['tw']:.1f}, r = {p['r']:.1f} mm; fy = {p['fy']:.0f} MPa",
         f"A = {p['A']:.0f} mm², Ix = {p['Ix'] / 1e6:.2f}e6 mm⁴, Iy = {p['Iy'] / 1e6:.3f}e6 mm⁴, "
         f"Sx = {p['Sx'] / 1e3:.0f}e3 mm³, Zx = {p['Zx'] / 1e3:.0f}e3 mm³, "
-        f"J = {p['J'] / 1e3:.1f}e3 mm⁴, Cw = {p['Cw'] / 1e9:.1f}e9 mm⁶{given}",
+        f"J = {p['J'] / 1e3:.1f}e3 mm⁴, Cw = {p['Cw'] / 1e9:.1f}e9 mm⁶",
+        source_words(p),
         f"flange b/2tf = {bt:.2f}; limits 145/√fy = {FLANGE_LIMITS[0] / root:.2f}, "
         f"170/√fy = {FLANGE_LIMITS[1] / root:.2f}, 200/√fy = {FLANGE_LIMITS[2] / root:.2f}",
         f"web h/w = {hw:.1f}; limits 1100/√fy = {WEB_LIMITS[0] / root:.1f}, "
@@ -155,6 +155,28 @@ def _section_step(row: pd.Series, p: pd.Series) -> Step:
         + (f" = {row['M_base'] / KNM:.1f} kN·m" if cls < 4 else ""),
     ]
     return Step("Section properties and class", "SANS 10162-1:2011, Table 3", lines)
+
+
+def source_words(p: pd.Series) -> str:
+    """Where a section's properties came from, in one line (explain and the report)."""
+    source = str(p.get("source", "plates"))
+    given = str(p["given"])
+    if source.startswith("catalogue"):
+        words = f"source: {source}; the tabulated {given.replace(' ', ', ')} are used as they are"
+    elif given:
+        words = (
+            f"source: given properties: {given.replace(' ', ', ')} from the sections table; "
+            "the rest from the plates"
+        )
+    else:
+        words = (
+            "source: plates: A, Ix, Iy, Zx with root fillets, Sx = 2·Ix/d, J by the "
+            "fillet-corrected fit, Cw = Iy·(d − tf)²/4"
+        )
+    replaces = str(p.get("replaces", "") or "")
+    if replaces:
+        words += f" (the sections table's row replaces catalogue shape {replaces})"
+    return words
 
 
 def _length_step(row: pd.Series, seg: pd.Series) -> Step:

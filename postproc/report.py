@@ -19,7 +19,12 @@ import pandas as pd
 from flangewise.engine.check import EXACT_MARGIN, CheckResult
 from flangewise.engine.diagrams import member_diagram, station_key
 from flangewise.engine.flags import FLAGS
-from flangewise.postproc.derivation import EXACT_CITATION, derivation, no_exact_reason
+from flangewise.postproc.derivation import (
+    EXACT_CITATION,
+    derivation,
+    no_exact_reason,
+    source_words,
+)
 from flangewise.postproc.exports import CAUTION, LOAD_HEIGHT_WORDS, METHOD_WORDS
 from flangewise.postproc.svg import Marker, moment_diagram, utilization_bars
 
@@ -220,6 +225,7 @@ def _overview(
         + (f"<p><b>{escape(outcome)}</b></p>" if outcome else "")
         + f"<table>{rows}</table>"
         + _no_forces(no_forces)
+        + _sections_table(result)
         + "<h3>Members nearest failure</h3>"
         "<table><tr><th>member</th><th>segment</th><th>load combination</th><th>Lu [m]</th>"
         "<th>factor used</th><th>exact factor</th><th>Mr [kN·m]</th><th>utilization</th></tr>"
@@ -235,6 +241,21 @@ def _overview(
         + flag_rows
         + "</table>"
         + more
+    )
+
+
+def _sections_table(result: CheckResult) -> str:
+    """Each section the run's results use, and where its properties came from."""
+    used = result.results["section"].astype(str).unique().tolist()
+    props = result.sections[result.sections.index.astype(str).isin(used)]
+    rows = "".join(
+        f"<tr><td>{escape(str(name))}</td>"
+        f"<td>{escape(source_words(p).removeprefix('source: '))}</td></tr>"
+        for name, p in props.iterrows()
+    )
+    return (
+        "<h3>Sections and where their properties come from</h3>"
+        f"<table><tr><th>section</th><th>source</th></tr>{rows}</table>"
     )
 
 

@@ -27,7 +27,9 @@ def model_summary(model: Model, layout: Layout) -> str:
         f"Elements     : {len(model.elements)} "
         f"(total length {model.elements['length'].sum() / 1000.0:.2f} m, "
         f"{int(model.elements['backwards'].sum())} drawn backwards)",
-        f"Sections     : {len(model.sections)}",
+        f"Sections     : {len(model.sections)} ({_source_counts(model)}); where each one's "
+        "properties come from:",
+        *_section_sources(model),
         f"Braces       : {_brace_counts(model)}",
         f"Supports     : {len(model.supports)}",
         f"Members      : {len(layout.members.table)} "
@@ -47,6 +49,45 @@ def model_summary(model: Model, layout: Layout) -> str:
             f"  {row.size:>8}"
         )
     return "\n".join(lines)
+
+
+#: At most this many sections are listed one by one; the rest are counted.
+MAX_SECTIONS_LISTED = 40
+
+
+def _source_counts(model: Model) -> str:
+    """'2 from catalogues, 1 from plates, 0 with given properties'."""
+    source = model.sections["source"].astype(str)
+    kinds = (
+        ("from catalogues", source.str.startswith("catalogue").sum()),
+        ("from plates", (source == "plates").sum()),
+        ("with given properties", (source == "given properties").sum()),
+    )
+    return ", ".join(f"{int(n)} {words}" for words, n in kinds)
+
+
+def _section_sources(model: Model) -> list[str]:
+    """One line per section: its name and where its properties come from."""
+    sections = model.sections.head(MAX_SECTIONS_LISTED)
+    width = max([len(str(n)) for n in sections.index], default=0)
+    lines = []
+    for name, row in sections.iterrows():  # a few sections, each worth a line
+        words = {
+            "plates": "plates (computed from d, b, tf, tw, r)",
+            "given properties": f"given properties ({_given(row)}), the rest from plates",
+        }.get(str(row["source"]), str(row["source"]))
+        if row["replaces"]:
+            words += f"; this row of the sections table replaces catalogue shape {row['replaces']}"
+        lines.append(f"  {name!s:<{width}}  {words}")
+    rest = len(model.sections) - len(sections)
+    if rest > 0:
+        lines.append(f"  … and {rest} more")
+    return lines
+
+
+def _given(row: object) -> str:
+    """The property names a sections row gives, e.g. 'J Cw'."""
+    return " ".join(c for c in ("A", "Ix", "Iy", "Sx", "Zx", "J", "Cw") if row[c] == row[c])  # type: ignore[index]
 
 
 def _brace_counts(model: Model) -> str:

@@ -15,6 +15,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 from flangewise.readers import units
+from flangewise.readers.catalogue import PLATES, PROPERTIES, catalogue, normalise
 from flangewise.readers.csv_parse import cell_text
 from flangewise.readers.errors import InputError, Problem, ProblemList
 from flangewise.readers.model import (
@@ -32,6 +33,7 @@ from flangewise.readers.settings import (
 from flangewise.readers.stations import station_positions
 from flangewise.readers.tables import (
     MAX_LISTED,
+    UNPARSED_KEY,
     numeric,
     read_table,
     required_text,
@@ -77,6 +79,7 @@ def load_model(
     nodes = _nodes(tables["nodes"], settings, problems)
     _breaks(nodes, settings, problems)
     sections = _sections(tables["sections"], settings, problems)
+    sections = _named_shapes(tables["elements"], sections, settings)
     elements, broken = _elements(tables["elements"], nodes, sections, settings, problems)
     braces = _braces(tables["braces"], nodes, settings, problems)
     supports = _supports(tables["supports"], nodes, settings, problems)
@@ -209,14 +212,31 @@ def _breaks(nodes: pd.DataFrame, settings: Settings, problems: ProblemList) -> N
 
 
 def _sections(df: pd.DataFrame, settings: Settings, problems: ProblemList) -> pd.DataFrame:
+    """The sections table, each row with its ``source`` and the catalogue shape it ``replaces``.
+
+    A row naming a catalogue shape whose plate cells (d, b, tf, tw) are all empty takes the
+    shape's plates and tabulated properties, with its own fy and any properties it gives; a row
+    with plates replaces the catalogue shape of its name altogether.
+    """
     file = settings.files["sections"]
     col = lambda ours: _col(settings, "sections", ours)  # noqa: E731
     required_text(df, "name", file, col("name"), problems)
     keep = _unique_ids(df, "name", "sections", settings, problems)
-    out = section_plates(df, settings, problems)
+    shapes = catalogue()
+    found, _ = shapes.match(df["name"])
+    from_catalogue = (found.notna() & _empty_cells(df, ("d", "b", "tf", "tw"))).to_numpy()
     f = units.factor("length", settings.units.section)
+    if from_catalogue.any():
+        # The shape's plates stand in the empty cells, so that the row is read like any other.
+        df = df.copy()
+        tab = shapes.shapes.loc[found[from_catalogue].to_numpy()]
+        for c in PLATES:
+            df[c] = df[c].astype(np.float64) if c in df else np.nan
+            df.loc[from_catalogue, c] = tab[c].to_numpy() / f
+    out = section_plates(df, settings, problems)
     rows = spreadsheet_rows(df.index)
     for c, power in OVERRIDES.items():
+        v = np.full(len(df), np.nan)
         if c in df:
             with np.errstate(over="ignore"):
                 v = numeric(df, c, file, col(c), problems, required=False).to_numpy() * f**power
@@ -228,8 +248,64 @@ def _sections(df: pd.DataFrame, settings: Settings, problems: ProblemList) -> pd
                 cell_text(df, c, bad),
                 "a positive, finite value or an empty cell",
             )
-            out[c] = v
+        out[c] = v
+    given = out[list(OVERRIDES)].notna().any(axis=1).to_numpy()
+    out["source"] = np.where(given, "given properties", "plates")
+    out["replaces"] = found.astype(object).where(found.notna(), "").to_numpy(dtype=object)
+    if from_catalogue.any():
+        tab = shapes.shapes.loc[found[from_catalogue].to_numpy()]
+        for c in PLATES:
+            out.loc[from_catalogue, c] = tab[c].to_numpy()
+        for c in PROPERTIES:
+            mine = out.loc[from_catalogue, c].to_numpy()
+            out.loc[from_catalogue, c] = np.where(np.isnan(mine), tab[c].to_numpy(), mine)
+        words = np.where(given[from_catalogue], "; with properties given in the sections table", "")
+        out.loc[from_catalogue, "source"] = (
+            "catalogue: " + tab["source"].to_numpy(dtype=object) + words.astype(object)
+        )
+        out.loc[from_catalogue, "replaces"] = ""
     return out[keep]
+
+
+def _empty_cells(df: pd.DataFrame, columns: tuple[str, ...]) -> pd.Series:
+    """Per row, whether every one of ``columns`` is empty (a cell holding text is not empty)."""
+    empty = pd.Series(True, index=df.index)
+    unparsed = df.attrs.get(UNPARSED_KEY, {})
+    for c in columns:
+        if c not in df:
+            continue
+        empty &= df[c].isna()
+        if c in unparsed:
+            empty.iloc[unparsed[c].records] = False
+    return empty
+
+
+def _named_shapes(
+    elements: pd.DataFrame, sections: pd.DataFrame, settings: Settings
+) -> pd.DataFrame:
+    """Add the catalogue shapes that elements name and the sections table does not have.
+
+    Each is named as the elements table writes it, with the shape's plates and tabulated
+    properties (taking precedence over plate formulas in the engine) and ``[material] fy``.
+    """
+    names = elements["section"].dropna()
+    missing = pd.Series(names[~_known(names, sections.index)].unique(), dtype=object)
+    found, _ = catalogue().match(missing)
+    hit = found.notna().to_numpy()
+    if not hit.any():
+        return sections
+    tab = catalogue().shapes.loc[found[hit].to_numpy()]
+    added = pd.DataFrame(
+        {
+            **{c: tab[c].to_numpy() for c in (*PLATES,)},
+            "fy": settings.default_fy,
+            **{c: tab[c].to_numpy() for c in PROPERTIES},
+            "source": "catalogue: " + tab["source"].to_numpy(dtype=object),
+            "replaces": "",
+        },
+        index=pd.Index(missing[hit].to_numpy(dtype=object), name="name"),
+    )
+    return pd.concat([sections, added[sections.columns]])
 
 
 def _elements(
@@ -252,15 +328,7 @@ def _elements(
     rows = spreadsheet_rows(df.index)
     for c in ("start", "end"):
         _unknown_ids(df, c, nodes.index, file, col(c), "a node id of the nodes table", problems)
-    _unknown_ids(
-        df,
-        "section",
-        sections.index,
-        file,
-        col("section"),
-        "a section name of the sections table",
-        problems,
-    )
+    _unknown_sections(df, sections.index, file, col("section"), problems)
     start = nodes.reindex(df["start"].to_numpy())[["x", "y", "z"]].to_numpy()
     end = nodes.reindex(df["end"].to_numpy())[["x", "y", "z"]].to_numpy()
     d = end - start
@@ -289,6 +357,38 @@ def _elements(
         index=pd.Index(df["id"], name="id"),
     )
     return out[keep], broken[keep]
+
+
+def _unknown_sections(
+    df: pd.DataFrame, known: pd.Index, file: str, their_name: str, problems: ProblemList
+) -> None:
+    """Record every section name that is neither in the sections table nor one catalogue shape.
+
+    A name that fits two catalogue shapes is refused with both named: never a guess.
+    """
+    names = df["section"]
+    unknown = (names.notna() & ~_known(names, known)).to_numpy()
+    if not unknown.any():
+        return
+    _, ambiguous = catalogue().match(names[unknown])
+    keys = list(catalogue().keys)
+    rows = spreadsheet_rows(df.index[unknown])
+    problems.more += max(0, len(rows) - MAX_LISTED)
+    listed = zip(rows[:MAX_LISTED].tolist(), names[unknown][:MAX_LISTED], ambiguous, strict=False)
+    for row, name, both in listed:
+        if isinstance(both, str):
+            expected = (
+                f"one shape: this name fits {both} (write the designation in full, or add a "
+                "row for it to the sections table)"
+            )
+        else:
+            close = difflib.get_close_matches(normalise(name), keys, n=3, cutoff=0.8)
+            near = [catalogue().keys[k][0] for k in close] + difflib.get_close_matches(
+                name, [str(k) for k in known], n=3
+            )
+            hint = f" (close: {', '.join(near)})" if near else ""
+            expected = f"a section name of the sections table or a catalogue shape{hint}"
+        problems.add(file, int(row), their_name, name, expected)
 
 
 def _braces(

@@ -22,8 +22,8 @@ SETTINGS_NAME = "flangewise.toml"
 TableName = Literal["nodes", "elements", "sections", "forces", "braces", "supports"]
 TABLES: tuple[TableName, ...] = ("nodes", "elements", "sections", "forces", "braces", "supports")
 
-#: Tables a model may leave out.
-OPTIONAL_TABLES: frozenset[str] = frozenset({"braces", "supports"})
+#: Tables a model may leave out (sections: when every element names a catalogue shape).
+OPTIONAL_TABLES: frozenset[str] = frozenset({"sections", "braces", "supports"})
 
 #: Canonical column names per table: (name, required).
 COLUMNS: dict[str, tuple[tuple[str, bool], ...]] = {
