@@ -14,7 +14,10 @@ implies at its stations (its change of slope, M″ = −q), acting at a height a
 Every station is a mesh node. The diagram is scaled to |M|max = 1, so the smallest positive
 eigenvalue λ of K·q = λ·G·q is the elastic critical moment Mcr itself (N·mm).
 
-Two solvers, both stacked over many segments at once (no Python loop per segment):
+Two solvers, both stacked over many segments at once (no Python loop per segment). The fork
+supports' DOF are dropped, and K is factorized once per stiffness group (:func:`stiffness_groups`:
+the same elements and section, as every load combination of one segment has), W = L⁻¹; per run
+only the moment coupling is assembled and B = W_u·G_uφ·W_φᵀ formed by two matrix products.
 
 * loads at the shear centre (a = 0): K has no u–φ coupling and G only couples u with φ, so with
   K_u = L_u·L_uᵀ and K_φ = L_φ·L_φᵀ the eigenvalues μ = 1/λ of L⁻¹·G·L⁻ᵀ are ± the singular values
@@ -227,7 +230,13 @@ def stiffness_groups(mesh: Mesh, e_iy: np.ndarray, g_j: np.ndarray, e_cw: np.nda
 
 
 def _inverse_factor(k: np.ndarray) -> np.ndarray:
-    """Return W = L⁻¹ with K = L·Lᵀ for every stacked symmetric positive definite K."""
+    """Return W = L⁻¹ with K = L·Lᵀ for every stacked symmetric positive definite K.
+
+    An explicit inverse, so that every run of a stiffness group shares it. It costs digits when
+    element lengths differ a lot (K's condition grows with the cube of their ratio): against a
+    general eigensolver, about 1e-10 with stations at least L/200 apart, 1e-7 to 1e-8 with a
+    4 mm interval beside 500 mm elements; either is far below the mesh's own 0.1 %.
+    """
     return np.linalg.inv(np.linalg.cholesky(k))
 
 
