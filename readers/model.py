@@ -9,11 +9,15 @@ Tables (pandas DataFrames):
                ``member`` (the user's own grouping, str or missing), ``length`` [mm],
                ``backwards`` (bool, see :func:`drawn_backwards`), ``row`` (its spreadsheet row in
                the elements file, for messages).
-``sections``   index ``name`` (str); columns ``d``, ``b``, ``tf``, ``tw``, ``r`` [mm]
-               (``r`` = 0 when not given), ``fy`` [MPa]; where the file gave them, the
-               overrides ``A`` [mm²],
-               ``Ix``, ``Iy`` [mm⁴], ``Sx``, ``Zx`` [mm³], ``J`` [mm⁴], ``Cw`` [mm⁶]
-               (missing = computed).
+``sections``   index ``name`` (str, as the sections or the elements table writes it); columns
+               ``d``, ``b``, ``tf``, ``tw``, ``r`` [mm] (``r`` = 0 when not given), ``fy``
+               [MPa]; the overrides ``A`` [mm²], ``Ix``, ``Iy`` [mm⁴], ``Sx``, ``Zx`` [mm³],
+               ``J`` [mm⁴], ``Cw`` [mm⁶] (NaN = computed from the plates); ``source`` (str):
+               ``"catalogue: <table label>"`` (a shipped shape: its plates and tabulated
+               properties, see ``readers.catalogue``), ``"plates"`` or ``"given properties"``
+               (a sections row giving at least one override); ``replaces`` (str): the catalogue
+               shape a sections row with plates replaces, "" when none. Rows of the sections
+               table come first, then the catalogue shapes that only elements name.
 ``forces``     columns ``element`` (categorical whose categories are exactly ``elements.index``, so
                the codes are element row numbers), ``combination`` (categorical), ``position`` [mm]
                from the element's start node, in [0, length]; every element has a station exactly
