@@ -51,6 +51,10 @@ BASE_ELEMENTS = 16
 #: Two stations closer than this [mm] are one place (a moment jump when their moments differ).
 SAME_PLACE_MM = 1.0e-3
 
+#: Runs meshed and solved as one block by :func:`exact_factors`: bounds the memory of the mesh
+#: and the grouping (about 200 MB per block), whatever the number of pairs.
+BLOCK = 50_000
+
 #: Segments solved together: bounds the memory to a few × CHUNK × (4·elements)² × 8 bytes.
 CHUNK = 1024
 
@@ -460,16 +464,27 @@ def exact_factors(
         settings: E, G and the load height.
     """
     n = len(runs.length)
+    e, g = settings.E, settings.G
+    m_cr = np.full(n, np.nan)
+    elements = np.zeros(n, dtype=np.int64)
     idx = np.flatnonzero(solve)
     counts = runs.counts
-    keep = np.repeat(solve, counts)
-    offsets = np.r_[0, np.cumsum(counts[idx])]
-    mesh = build_mesh(runs.x[keep], runs.m[keep], offsets)
-    e, g = settings.E, settings.G
-    height = load_heights(flange[idx], h0[idx], settings.load_height)
-    m_cr = np.full(n, np.nan)
-    m_cr[idx] = critical_moments(mesh, e * iy[idx], g * j[idx], e * cw[idx], height)
+    # Runs with the same stations and section (every combination of one segment) share one
+    # stiffness factorization: put them side by side, then solve in blocks that bound the memory.
+    run = runs.run_of_station
+    s1 = np.bincount(run, weights=runs.x, minlength=n)
+    s2 = np.bincount(run, weights=runs.x * runs.x, minlength=n)
+    order = idx[
+        np.lexsort((s2[idx], s1[idx], counts[idx], runs.length[idx], cw[idx], j[idx], iy[idx]))
+    ]
+    for b in range(0, len(order), BLOCK):
+        sel = order[b : b + BLOCK]
+        c = counts[sel]
+        first = runs.starts[sel]
+        stations = np.repeat(first - (np.cumsum(c) - c), c) + np.arange(int(c.sum()))
+        mesh = build_mesh(runs.x[stations], runs.m[stations], np.r_[0, np.cumsum(c)])
+        height = load_heights(flange[sel], h0[sel], settings.load_height)
+        m_cr[sel] = critical_moments(mesh, e * iy[sel], g * j[sel], e * cw[sel], height)
+        elements[sel] = mesh.n_elements
     uniform = m_cr_uniform(runs.length, e * iy, g * j, e * cw)
-    elements = np.zeros(n, dtype=np.int64)
-    elements[idx] = mesh.n_elements
     return ExactResult(m_cr=m_cr, factor=m_cr / uniform, elements=elements)
