@@ -291,7 +291,9 @@ def _named_shapes(
     names = elements["section"].dropna()
     missing = pd.Series(names[~_known(names, sections.index)].unique(), dtype=object)
     found, _ = catalogue().match(missing)
-    hit = found.notna().to_numpy()
+    # A shape a sections row replaces, written another way here, is no catalogue shape: the
+    # elements would silently skip the user's own row (reported in _unknown_sections).
+    hit = (found.notna() & ~found.isin(sections["replaces"].to_numpy())).to_numpy()
     if not hit.any():
         return sections
     tab = catalogue().shapes.loc[found[hit].to_numpy()]
@@ -328,7 +330,7 @@ def _elements(
     rows = spreadsheet_rows(df.index)
     for c in ("start", "end"):
         _unknown_ids(df, c, nodes.index, file, col(c), "a node id of the nodes table", problems)
-    _unknown_sections(df, sections.index, file, col("section"), problems)
+    _unknown_sections(df, sections, file, col("section"), problems)
     start = nodes.reindex(df["start"].to_numpy())[["x", "y", "z"]].to_numpy()
     end = nodes.reindex(df["end"].to_numpy())[["x", "y", "z"]].to_numpy()
     d = end - start
@@ -360,23 +362,34 @@ def _elements(
 
 
 def _unknown_sections(
-    df: pd.DataFrame, known: pd.Index, file: str, their_name: str, problems: ProblemList
+    df: pd.DataFrame, sections: pd.DataFrame, file: str, their_name: str, problems: ProblemList
 ) -> None:
     """Record every section name that is neither in the sections table nor one catalogue shape.
 
-    A name that fits two catalogue shapes is refused with both named: never a guess.
+    A name that fits two catalogue shapes is refused with both named: never a guess. So is a
+    catalogue shape written otherwise than the sections row that replaces it.
     """
     names = df["section"]
+    known = sections.index
     unknown = (names.notna() & ~_known(names, known)).to_numpy()
     if not unknown.any():
         return
-    _, ambiguous = catalogue().match(names[unknown])
+    found, ambiguous = catalogue().match(names[unknown])
+    replaced = sections["replaces"].to_numpy(dtype=object)
+    mine = replaced != ""
+    row_of = pd.Series(sections.index.to_numpy(dtype=object)[mine], index=replaced[mine])
+    row_of = row_of[~row_of.index.duplicated()]
     keys = list(catalogue().keys)
     rows = spreadsheet_rows(df.index[unknown])
     problems.more += max(0, len(rows) - MAX_LISTED)
     listed = zip(rows[:MAX_LISTED].tolist(), names[unknown][:MAX_LISTED], ambiguous, strict=False)
-    for row, name, both in listed:
-        if isinstance(both, str):
+    for (row, name, both), shape in zip(listed, found, strict=False):
+        if isinstance(shape, str) and shape in row_of.index:
+            expected = (
+                f"the name as the sections table writes it, '{row_of[shape]}': that row "
+                f"replaces catalogue shape {shape}"
+            )
+        elif isinstance(both, str):
             expected = (
                 f"one shape: this name fits {both} (write the designation in full, or add a "
                 "row for it to the sections table)"

@@ -163,6 +163,17 @@ def test_a_sections_row_with_plates_replaces_the_catalogue_shape(tmp_path):
     assert np.isnan(row["J"])  # computed from the plates, not the table's
 
 
+def test_a_replaced_shape_written_another_way_is_refused(tmp_path):
+    # The element must not take the catalogue's W410x60 past the user's own row for it.
+    sections = "name,d,b,tf,tw,r\nW410X60,407,178,12.8,7.7,10\n"
+    folder = _model(tmp_path / "m", sections, ("W410X60", "w410x60"))
+    with pytest.raises(readers.InputError) as info:
+        readers.load_model(folder)
+    (problem,) = info.value.problems
+    assert (problem.row, problem.value) == (3, "w410x60")
+    assert "the name as the sections table writes it, 'W410X60'" in problem.expected
+
+
 def test_a_sections_row_with_empty_plates_takes_the_shape_and_its_own_fy(tmp_path):
     sections = "name,d,b,tf,tw,fy,J\nHE 300 B,,,,,355,\nIPE 300,,,,,,200000\n"
     model = readers.load_model(_model(tmp_path / "m", sections, ("HE 300 B", "IPE 300")))
