@@ -47,6 +47,7 @@ EXIT_INPUT = 2
 EXIT_NOT_WRITTEN = 3
 EXIT_INTERNAL = 4
 EXIT_INTERRUPTED = 130  # 128 + SIGINT, as shells report an interrupted program
+EXIT_BROKEN_PIPE = 141  # 128 + SIGPIPE: the program reading our output closed it
 
 #: The environment variable that asks for the traceback of an internal error, like ``--debug``.
 DEBUG_VARIABLE = "FLANGEWISE_DEBUG"
@@ -67,6 +68,7 @@ Exit status:
      the command line and the input files (--debug or FLANGEWISE_DEBUG=1
      shows the traceback)
   130  interrupted (Ctrl-C)
+  141  the program reading the output closed it early (a pipe)
 """
 
 CHECK_EXIT_HELP = """\b
@@ -82,6 +84,7 @@ Exit status:
      the command line and the input files (--debug or FLANGEWISE_DEBUG=1
      shows the traceback)
   130  interrupted (Ctrl-C)
+  141  the program reading the output closed it early (a pipe)
 """
 
 
@@ -148,6 +151,15 @@ class _Commands(click.Group):
                 f"Could not write the results: {exc.error}",
                 "Earlier results in the output folder are unchanged.",
             )
+        except BrokenPipeError:
+            # The reader of our output went away (`flangewise summary … | head`): nothing is wrong
+            # with the input or the tool. Silence the rest of the output and end as a process
+            # stopped by SIGPIPE does, a status that never reads as a result.
+            try:
+                os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+            except (OSError, ValueError, AttributeError):
+                pass  # no real file behind stdout (a test runner's buffer): nothing to silence
+            sys.exit(EXIT_BROKEN_PIPE)
         except OSError as exc:
             if exc.filename is None:
                 self._internal_error(ctx, exc)

@@ -4,7 +4,7 @@ Each file in ``catalogues/`` is one published table: a ``# source:`` line naming
 edition and the package it was taken from, a ``# label:`` line (the short form shown in
 ``summary``, ``explain`` and the report), notes, then ``name, d, b, tf, tw, r`` [mm] and the
 tabulated ``A`` [mm²], ``Ix``, ``Iy`` [mm⁴], ``Sx``, ``Zx`` [mm³], ``J`` [mm⁴], ``Cw`` [mm⁶].
-``tools/make_catalogues.py`` builds them and checks every row against its own plates.
+``sample_models/tools/make_catalogues.py`` builds them and checks every row against its own plates.
 
 A designation is matched after the usual ways of writing it are folded together (case, blanks,
 ``x``/``X``/``×``; ``HE300B``, ``HE 300 B``, ``HEB300`` and ``HEB 300`` are one shape), and never

@@ -147,3 +147,29 @@ def test_help_documents_the_exit_statuses_and_debug():
         assert "4  an internal error of flangewise" in text
         assert "NOT SHOWN TO PASS" in text
         assert "130  interrupted" in text
+
+
+def test_a_reader_that_closes_the_pipe_early_is_not_an_internal_error(tmp_path):
+    # `flangewise members … | head -1`: the reader goes away after one line. The tool ends as a
+    # process stopped by SIGPIPE does (141), quietly, never with 4 ("internal error") or a result.
+    import subprocess
+    import sys
+
+    sample = sample_path("industrial_shed")
+    # A listing longer than any pipe's buffer (1 MB), so that writing it meets the closed pipe.
+    script = (
+        "import sys; from flangewise.postproc import cli; "
+        "cli.members_text = lambda *a, **k: 'member line\\n' * 100000; "
+        f"sys.argv = ['flangewise', 'members', {str(sample)!r}]; cli.main()"
+    )
+    proc = subprocess.Popen(
+        [sys.executable, "-c", script], stdout=subprocess.PIPE, stderr=subprocess.PIPE
+    )
+    assert proc.stdout is not None
+    proc.stdout.readline()
+    proc.stdout.close()  # the reader goes away
+    err = proc.stderr.read().decode() if proc.stderr else ""
+    status = proc.wait(timeout=60)
+    assert status == 141, err
+    assert "internal error" not in err
+    assert "Traceback" not in err

@@ -39,7 +39,7 @@ from flangewise.postproc.cli import main
 from flangewise.readers import InputError, load_model
 from flangewise.readers.settings import read_settings
 
-SAMPLES = ("two_span_beam", "industrial_shed", "plant_platform")
+SAMPLES = ("two_span_beam", "industrial_shed", "plant_platform", "rolled_floor")
 
 #: Replacement texts for one cell: numbers, near-numbers, non-finite values, names that parsers
 #: like to read as missing, ids that parsers like to read as numbers, and plain junk.
@@ -88,10 +88,12 @@ SETTINGS_KINDS = ("settings-value", "settings-drop-key", "settings-missing-file"
 KINDS = CELL_KINDS * 6 + ROW_KINDS + COLUMN_KINDS + FILE_KINDS + SETTINGS_KINDS
 
 #: Kinds that must always be refused (status 2): the damage cannot be read right. An empty or
-#: header-only file is refused only where the table is required (braces and supports may be empty).
+#: header-only file is refused only where the table is required: braces and supports may be empty,
+#: and so may sections when every element names a catalogue shape (otherwise the elements' section
+#: names are refused as unknown).
 MUST_REFUSE = frozenset({"extra-field", "drop-last-field", "cut-row", "settings-missing-file"})
 EMPTY_KINDS = frozenset({"header-only", "empty-file"})
-OPTIONAL_TABLES = frozenset({"braces", "supports"})
+OPTIONAL_TABLES = frozenset({"braces", "supports", "sections"})
 
 #: Optional numeric columns, where an empty cell means "not given" (README, input reference): the
 #: root radius then is 0, fy the settings' default, an override the computed property.

