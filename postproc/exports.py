@@ -44,6 +44,15 @@ METHOD_WORDS = {
     "design basis is for the engineer and the local design code to confirm",
 }
 
+#: Status words of the pairs whose utilization was worked out.
+CHECKED = ("ok", "over")
+
+#: How the worst pair (and each member's governing pair) is chosen among equals.
+WORST_RULE = (
+    "highest utilization; among equal utilizations, the member first in natural order (M2 before "
+    "M10), then the segment first in natural order, then the load combination first in the model"
+)
+
 #: The share of |M|max column's header: a dimensionless share, named for what it divides by.
 DEPARTURE = "departure from line [share of |M| max]"
 
@@ -112,23 +121,88 @@ def select_members(result: CheckResult, members: Sequence[str]) -> CheckResult:
     return dataclasses.replace(result, results=r[keep])
 
 
-def governing_table(segments: pd.DataFrame) -> pd.DataFrame:
-    """The governing row of each member: its checked pair of highest utilization.
+def natural_rank(names: Sequence[str] | pd.Index) -> np.ndarray:
+    """Rank of each name in natural order: M2 before M10, M4-top-2 before M4-top-10.
 
-    A member with no checked pair keeps one row saying why (not critical, or not checked).
+    Each name is split into runs of text and runs of digits; runs of text compare as text, runs
+    of digits as numbers, and a name that ends sooner comes first (M4 before M4-top-1). Names
+    equal in that order (M07 and M7) fall back to plain text order, so the ranks are a strict
+    order. Vectorized over the distinct names (a table's categories), not its rows.
+
+    Returns:
+        int64 ranks 0..n-1, one per name, in the order given.
     """
-    checked = _status_in(segments, "ok", "over")
-    unchecked = _status_in(segments, "not checked")
+    text = pd.Series(np.asarray(names, dtype=object), dtype=object).astype(str)
+    if text.empty:
+        return np.zeros(0, dtype=np.int64)
+    parts = text.str.split(r"(\d+)", regex=True, expand=True)
+    keys = []
+    for i, column in enumerate(parts.columns):
+        part = parts[column]
+        if i % 2:  # digits: compared as numbers; a missing run sorts before any number
+            keys.append(pd.to_numeric(part, errors="coerce").fillna(-1.0).to_numpy(np.float64))
+        else:  # text: compared as text; a missing run is "" and sorts first
+            keys.append(pd.factorize(part.fillna(""), sort=True)[0])
+    keys.append(pd.factorize(text, sort=True)[0])
+    order = np.lexsort(keys[::-1])  # lexsort's last key is the primary one
+    rank = np.empty(len(text), dtype=np.int64)
+    rank[order] = np.arange(len(text), dtype=np.int64)
+    return rank
+
+
+def _rank_of(column: pd.Series) -> np.ndarray:
+    """Per row, the natural rank of its text (through the categories when there are)."""
+    if isinstance(column.dtype, pd.CategoricalDtype):
+        codes = column.cat.codes.to_numpy()
+        ranks = natural_rank(column.cat.categories)
+        return np.where(codes >= 0, ranks[np.maximum(codes, 0)], -1)
+    values = column.astype(str).to_numpy()
+    unique, inverse = np.unique(values, return_inverse=True)
+    return natural_rank(unique)[inverse]
+
+
+def _file_order(column: pd.Series) -> np.ndarray:
+    """Per row, the combination's place in the model (its category code), else text order."""
+    if isinstance(column.dtype, pd.CategoricalDtype):
+        return column.cat.codes.to_numpy()
+    return pd.factorize(column.astype(str), sort=True)[0]
+
+
+def worst_order(segments: pd.DataFrame) -> np.ndarray:
+    """Row positions from worst to least: the stated tie-break of every "worst" and "governing".
+
+    Highest utilization first (missing ones last), then members in natural order, then segments
+    in natural order, then load combinations in the order the model gives them.
+    """
     util = segments["utilization"].to_numpy(dtype=np.float64)
-    # One score per row: checked rows by utilization, then "not checked", then "not critical".
-    score = np.where(checked, np.nan_to_num(util, nan=0.0), np.where(unchecked, -1.0, -2.0))
-    member = segments["member"]
-    keys = member.cat.codes.to_numpy() if isinstance(member.dtype, pd.CategoricalDtype) else member
-    best = pd.Series(score).groupby(np.asarray(keys)).idxmax().to_numpy()
-    gov = segments.iloc[best]
-    return gov.iloc[np.argsort(gov["member"].astype(str).to_numpy(), kind="stable")].reset_index(
-        drop=True
+    return np.lexsort(
+        (
+            _file_order(segments["combination"]),
+            _rank_of(segments["segment"]),
+            _rank_of(segments["member"]),
+            -np.nan_to_num(util, nan=-np.inf),
+        )
     )
+
+
+def governing_table(segments: pd.DataFrame) -> pd.DataFrame:
+    """The governing row of each member, members in natural order (M2 before M10).
+
+    A member's governing row is its checked pair of highest utilization, ties going as in
+    :func:`worst_order`. A member with no checked pair keeps one row saying why (not checked,
+    else not critical).
+    """
+    checked = _status_in(segments, *CHECKED)
+    unchecked = _status_in(segments, "not checked")
+    # One class per row: checked rows first, then "not checked", then "not critical"; within a
+    # class, rows in worst order. The first row of each member in that order governs.
+    kind = np.where(checked, 0, np.where(unchecked, 1, 2))
+    order = worst_order(segments)
+    order = order[np.argsort(kind[order], kind="stable")]
+    member = _rank_of(segments["member"])
+    first = order[~pd.Series(member[order]).duplicated().to_numpy()]
+    gov = segments.iloc[first[np.argsort(member[first], kind="stable")]]
+    return gov.reset_index(drop=True)
 
 
 def flagged_table(segments: pd.DataFrame) -> pd.DataFrame:
@@ -163,10 +237,10 @@ def summary(
         model_folder: the model checked.
         members: the members the run covers (``--member``); all of the model's by default.
     """
-    checked = segments[_status_in(segments, "ok", "over")]
+    checked = segments[_status_in(segments, *CHECKED)]
     worst: dict[str, Any] | None = None
     if len(checked):
-        w = checked.loc[checked["utilization"].idxmax()]
+        w = checked.iloc[worst_order(checked)[0]]
         worst = {
             "member": str(w["member"]),
             "segment": str(w["segment"]),
@@ -174,11 +248,13 @@ def summary(
             "utilization": round(float(w["utilization"]), 4),
             "Mr [kN·m]": round(float(w["Mr [kN·m]"]), 3),
             "demand [kN·m]": round(float(w["demand [kN·m]"]), 3),
+            "chosen by": WORST_RULE,
         }
     # Members whose elements have no force rows at all: say so rather than skip them silently.
     scope = list(result.layout.members.table.index.astype(str)) if members is None else members
     with_forces = set(segments["member"].astype(str).unique())
-    no_forces = [m for m in scope if m not in with_forces]
+    no_forces = [m for m in scope if m not in with_forces]  # a few names: natural order below
+    no_forces = [no_forces[i] for i in np.argsort(natural_rank(no_forces), kind="stable")]
     counts = {
         "pairs checked": len(checked),
         "pairs not critical": int(_status_in(segments, "not critical").sum()),
