@@ -56,3 +56,42 @@ def test_ties_go_to_the_member_first_in_natural_order():
     assert exports.worst_order(seg).tolist() == [2, 1, 0, 3]
     gov = exports.governing_table(seg)
     assert gov["segment"].astype(str).tolist() == ["M2-top-2", "M9-top-1", "M10-top-1"]
+
+
+def test_result_csvs_start_with_a_byte_order_mark_and_read_back(tmp_path):
+    code, output = _check(sample_path("plant_platform"), tmp_path / "r")
+    assert code in (0, 1), output
+    for name in ("segments.csv", "governing.csv", "flagged.csv"):
+        data = (tmp_path / "r" / name).read_bytes()
+        assert data.startswith(b"\xef\xbb\xbf"), name
+        assert data.count(b"\xef\xbb\xbf") == 1, name
+        table = pd.read_csv(tmp_path / "r" / name, encoding="utf-8-sig")
+        assert table.columns[0] == "member"
+        assert "κ" in table.columns and "Mr [kN·m]" in table.columns
+
+
+def test_numbers_keep_six_significant_figures_not_four_decimals():
+    values = np.array([0.001857123, -0.0000123456789, 123456789.0, 2.0 / 3.0, -0.0, np.nan])
+    rounded = exports.significant(values)
+    # common practice: rounding to 6 significant figures.
+    assert rounded[0] == 0.00185712
+    assert rounded[1] == -0.0000123457
+    assert rounded[2] == 123457000.0
+    assert rounded[3] == 0.666667
+    assert str(rounded[4]) == "0.0"
+    assert np.isnan(rounded[5])
+
+
+def test_csv_in_many_chunks_is_one_file_with_one_header(tmp_path):
+    n = 25
+    table = pd.DataFrame(
+        {"name": pd.Categorical([f"M{i}" for i in range(n)]), "ω2": 0.001857123 * np.arange(n)}
+    )
+    exports.write_csv(tmp_path / "a.csv", table, chunk=4)
+    exports.write_csv(tmp_path / "b.csv", table, chunk=1000)
+    data = (tmp_path / "a.csv").read_bytes()
+    assert data == (tmp_path / "b.csv").read_bytes()
+    assert data.startswith(b'\xef\xbb\xbf"name","\xcf\x892"\n"M0",0\n"M1",0.00185712\n')
+    back = pd.read_csv(tmp_path / "a.csv", encoding="utf-8-sig")
+    assert back["name"].tolist() == table["name"].tolist()
+    np.testing.assert_allclose(back["ω2"], table["ω2"], rtol=5e-6)
