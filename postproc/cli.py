@@ -358,6 +358,7 @@ def _run_check(run: _Run) -> dict[str, Any]:
                 _selection_line(run),
                 exports.outcome_line(info["result"]).replace("Result         :", "Result:"),
                 info["members without forces (not checked)"],
+                info["provenance"],
             )
         tables = {
             "segments.csv": seg,

@@ -1,18 +1,25 @@
 """The review report: one self-contained HTML file (inline CSS and SVG, no scripts, no network).
 
-An overview (model, settings, counts, the members nearest failure, a chart of every member's
-governing utilization, flag counts), then one section per governing and per flagged segment: the
-member's moment diagram with brace points and the segment shaded, and the derivation step by step
-with the clause beside each step. The caution stands at the top and in every section.
+Laid out to print as a calculation package: a title block (model, date, tool version, settings in
+force, filters, a short hash of the inputs), a contents list, an overview (counts, the members
+nearest failure, a chart of every member's governing utilization, flag counts), then one numbered
+section per governing segment and per segment whose result a flag changed: the member's moment
+diagram with brace points and the segment shaded, and the derivation step by step with the clause
+beside each step, kept together on one printed page. Pairs that repeat a drawn check to the printed
+digits (a symmetric frame's mirror members) are listed under it instead of drawn again; pairs
+whose flags only inform (``INFORMATIVE``) are listed in one table. Page numbers come from CSS
+``@page`` margin boxes. The caution stands at the top and in every section.
 """
 
 from __future__ import annotations
 
 import datetime as dt
-from collections.abc import Sequence
+import hashlib
+from collections.abc import Mapping, Sequence
 from html import escape
 from importlib.metadata import version
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -42,6 +49,13 @@ SCOPE = (
 #: Flags that ask the engineer to act: the factor of the design basis was on the unsafe side of
 #: the exact analysis. Their segments come first after the governing ones.
 ACTIONABLE = ("code-factor-high",)
+
+#: Flags that inform without changing any number of the check: their pairs are listed in a table,
+#: not drawn. Every other flag (including any added later) changed a result and is drawn.
+INFORMATIVE = ("sign-change", "not-end-moments")
+
+#: Hex digits of the inputs' hash shown in the title block and the page footer.
+SHORT_HASH = 12
 
 #: At most this many segment sections (governing first, then flagged); the rest are counted.
 MAX_SECTIONS = 200
@@ -73,7 +87,30 @@ svg .tick { font: 11px sans-serif; fill: #333; } svg .lab { font: bold 11px sans
 svg .dot { fill: #8a1c1c; } svg .brace-top { fill: #2b6e2b; } svg .brace-bottom { fill: #8a4b00; }
 svg .bar { fill: #1f3f8a; } svg .bar.over { fill: #8a1c1c; }
 svg .limit { stroke: #8a1c1c; stroke-dasharray: 4 3; }
-@media print { section.segment { break-before: page; } body { max-width: none; } }
+.steps td.title { width: 12rem; } .steps .clause { font-size: .75rem; color: #444; }
+.caution.small { font-size: .75rem; padding: .15rem .5rem; margin: .3rem 0; }
+table.title td:first-child { width: 9rem; color: #444; }
+.twins { font-size: .8rem; }
+@media print {
+  body { max-width: none; margin: 0; padding: 0; font-size: 9pt; line-height: 1.25; }
+  h2 { margin-top: .8rem; break-after: avoid; } h3 { margin: .2rem 0; }
+  table { font-size: 7.5pt; margin: .2rem 0; } td, th { padding: .05rem .3rem; }
+  .steps td.work { font-size: 7pt; line-height: 1.15; } .steps td.title { width: 9rem; }
+  section.segment { break-inside: avoid; margin-top: .4rem; padding-top: .2rem; }
+  section.segment p { margin: .2rem 0; }
+  svg.diagram { max-width: 460px; margin: .1rem 0; } svg.bars { max-width: 520px; }
+  svg.plan { max-width: 640px; } a { color: inherit; text-decoration: none; }
+  .contents, .informative, .title { break-inside: auto; }
+}
+"""
+
+#: Page numbers and a running foot in print (CSS paged media margin boxes; headless Chromium
+#: prints them). ``{foot}`` is the tool and the inputs' short hash.
+PAGE_CSS = """
+@page { margin: 12mm 11mm 14mm 11mm;
+  @bottom-left { content: "{foot}"; font: 8pt sans-serif; color: #444; }
+  @bottom-right { content: "page " counter(page) " of " counter(pages); font: 8pt sans-serif; }
+}
 """
 
 
@@ -84,6 +121,7 @@ def build_report(
     selection: str = "",
     outcome: str = "",
     no_forces: Sequence[str] = (),
+    provenance: Mapping[str, Any] | None = None,
 ) -> str:
     """Return the whole report as one HTML string.
 
@@ -95,32 +133,103 @@ def build_report(
         selection: a one-line description of the run's filters ("" for the whole model).
         outcome: the run's outcome in one line (passes, or not shown to pass and why).
         no_forces: the run's members that have no force rows (listed as not checked).
+        provenance: summary.json's record of how the results were made (its ``inputs`` give the
+            files' sha256 shown in the title block); None when there is none.
     """
     r = result.results
     gov = _governing(r)
-    actionable = r.index[np.logical_or.reduce([r[f"flag_{n}"].to_numpy() for n in ACTIONABLE])]
-    flagged = r.index[r["flags"].astype(str) != ""]
-    picked = list(dict.fromkeys([*gov.index, *actionable, *flagged]))
-    shown, omitted = picked[:MAX_SECTIONS], max(0, len(picked) - MAX_SECTIONS)
+    drawn, twins = _drawn_pairs(r, gov)
+    shown, omitted = drawn[:MAX_SECTIONS], max(0, len(drawn) - MAX_SECTIONS)
     key = station_key(result.layout.diagrams, result.layout.members)
-    body = [
-        _header(result, model_folder, settings_text, selection),
-        _overview(result, gov, omitted, outcome, no_forces),
-        "<h2>Governing and flagged segments</h2>",
-    ]
-    acting = set(actionable)
+    inputs = list(provenance.get("inputs", [])) if provenance else []
+    short = inputs_hash(inputs)
+    acting = set(r.index[_any_flag(r, ACTIONABLE)])
     reasons = {
-        i: (
-            "governing" if i in gov.index else ("flagged, actionable" if i in acting else "flagged")
-        )
+        i: "governing" if i in gov.index else ("flagged, actionable" if i in acting else "flagged")
         for i in shown
     }
-    body.extend(_segment_section(result, r.loc[i], reasons[i], key) for i in shown)
+    body = [
+        _header(result, model_folder, settings_text, selection, inputs, short),
+        _contents(r, shown, reasons, twins),
+        _overview(result, gov, omitted, outcome, no_forces),
+        _informative(r, set(drawn) | {j for t in twins.values() for j in t}),
+        "<h2 id='segments'>Governing and flagged segments (every flag that changed a result)</h2>",
+    ]
+    body.extend(
+        _segment_section(result, r.loc[i], n, reasons[i], key, r.loc[twins.get(i, [])])
+        for n, i in enumerate(shown, start=1)
+    )
+    foot = f"flangewise {version('flangewise')}" + (f" · inputs {short}" if short else "")
     return (
         "<!DOCTYPE html>\n<html lang='en'><head><meta charset='utf-8'>"
         f"<title>flangewise review: {escape(model_folder.name)}</title>"
-        f"<style>{CSS}</style></head><body>{''.join(body)}</body></html>\n"
+        f"<style>{CSS}{PAGE_CSS.replace('{foot}', foot)}</style></head>"
+        f"<body>{''.join(body)}</body></html>\n"
     )
+
+
+def inputs_hash(inputs: Sequence[Mapping[str, Any]]) -> str:
+    """A short hash of all input files: sha256 of their "path sha256" lines, first digits.
+
+    Two runs on the same files (same names, same bytes) print the same short hash; summary.json
+    holds each file's full sha256. "" when no input is recorded.
+    """
+    if not inputs:
+        return ""
+    lines = "".join(f"{f['path']} {f['sha256']}\n" for f in inputs)
+    return hashlib.sha256(lines.encode("utf-8")).hexdigest()[:SHORT_HASH]
+
+
+def _any_flag(r: pd.DataFrame, names: Sequence[str]) -> np.ndarray:
+    """Per row, whether any of the named flags is set (False when none is named)."""
+    cols = [r[f"flag_{n}"].to_numpy(dtype=bool) for n in names if f"flag_{n}" in r]
+    return np.logical_or.reduce(cols) if cols else np.zeros(len(r), dtype=bool)
+
+
+def _drawn_pairs(r: pd.DataFrame, gov: pd.DataFrame) -> tuple[list[Any], dict[Any, list[Any]]]:
+    """The pairs to draw (governing, then actionable, then other result-changing flags) and twins.
+
+    A pair whose check repeats a drawn one to the printed digits (same load combination,
+    section, flange, length, end moments as sizes, factor, Mr, demand and flags: a mirror member
+    of a symmetric frame) is not drawn again; it is listed under the drawn one (``twins``).
+    """
+    changing = [n for n in FLAGS if n not in INFORMATIVE]
+    picked = list(
+        dict.fromkeys(
+            [*gov.index, *r.index[_any_flag(r, ACTIONABLE)], *r.index[_any_flag(r, changing)]]
+        )
+    )
+    if not picked:
+        return [], {}
+    p = r.loc[picked]
+    ends = np.abs(p[["M_start", "M_end"]].to_numpy(dtype=float)) / KNM
+    # The digits the section prints: mm, 0.01 kN·m, 0.001 in the factor, 0.1 kN·m in Mr.
+    key = pd.DataFrame(
+        {
+            "combination": p["combination"].astype(str).to_numpy(),
+            "section": p["section"].astype(str).to_numpy(),
+            "flange": p["flange"].astype(str).to_numpy(),
+            "length": np.round(p["length"].to_numpy(dtype=float)),
+            "small": np.round(ends.min(axis=1), 2),
+            "large": np.round(ends.max(axis=1), 2),
+            "factor": np.round(p["factor"].to_numpy(dtype=float), 3),
+            "Mr": np.round(p["Mr"].to_numpy(dtype=float) / KNM, 1),
+            "demand": np.round(p["demand"].to_numpy(dtype=float) / KNM, 2),
+            "flags": p["flags"].astype(str).to_numpy(),
+        },
+        index=p.index,
+    ).fillna(-1.0)  # NaN never equals NaN: a not-critical pair still groups with its twin
+    first = key.groupby(list(key.columns), sort=False, dropna=False).ngroup()
+    drawn: list[Any] = []
+    twins: dict[Any, list[Any]] = {}
+    lead: dict[int, Any] = {}
+    for i, g in zip(first.index, first.to_numpy(), strict=True):  # one pass over the few picked
+        if g in lead:
+            twins.setdefault(lead[g], []).append(i)
+        else:
+            lead[g] = i
+            drawn.append(i)
+    return drawn, twins
 
 
 def _governing(r: pd.DataFrame) -> pd.DataFrame:
@@ -132,21 +241,103 @@ def _governing(r: pd.DataFrame) -> pd.DataFrame:
     return checked.loc[idx.to_numpy()].sort_values("utilization", ascending=False)
 
 
-def _header(result: CheckResult, folder: Path, settings_text: str, selection: str) -> str:
+def _header(
+    result: CheckResult,
+    folder: Path,
+    settings_text: str,
+    selection: str,
+    inputs: Sequence[Mapping[str, Any]],
+    short: str,
+) -> str:
+    """The title block: what was checked, when, with what, under which settings and filters."""
     s = result.settings
     when = dt.datetime.now().strftime("%Y-%m-%d %H:%M")
+    files = "; ".join(
+        f"{f['path']} {str(f['sha256'])[:SHORT_HASH]} ({int(f['bytes'])} bytes)" for f in inputs
+    )
+    rows = [
+        ("model", str(folder)),
+        ("date", when),
+        ("tool", f"flangewise {version('flangewise')}"),
+        ("input settings", settings_text),
+        (
+            "design basis",
+            f"{METHOD_WORDS[s.gradient]}; E = {s.E:.0f} MPa, G = {s.G:.0f} MPa, φ = {s.phi}",
+        ),
+        (
+            "exact factor",
+            f"{EXACT_CITATION}; {LOAD_HEIGHT_WORDS[s.load_height]}. "
+            f"{_limit_words(s.limit_to_exact)}",
+        ),
+        ("filters", selection or "none: the whole model"),
+        (
+            "inputs",
+            f"short hash {short} (sha256 of every input file; summary.json has each in full): "
+            f"{files}"
+            if short
+            else "no input hashes recorded",
+        ),
+    ]
+    table = "".join(f"<tr><td>{escape(k)}</td><td>{escape(v)}</td></tr>" for k, v in rows)
     return (
         "<h1>Lateral-torsional buckling review</h1>"
-        f"<p class='meta'>Model <b>{escape(str(folder))}</b> · {escape(settings_text)} · "
-        f"flangewise {escape(version('flangewise'))} · {when}</p>"
-        f"<p class='meta'>Design basis: {escape(METHOD_WORDS[s.gradient])}; E = {s.E:.0f} MPa, "
-        f"G = {s.G:.0f} MPa, φ = {s.phi}</p>"
-        f"<p class='meta'>Exact factor: {escape(EXACT_CITATION)}; "
-        f"{escape(LOAD_HEIGHT_WORDS[s.load_height])}. {escape(_limit_words(s.limit_to_exact))}"
-        "</p>"
-        + (f"<p class='meta'>Only part of the model: {escape(selection)}</p>" if selection else "")
-        + f"<div class='caution'>{escape(CAUTION)}</div>"
+        f"<div class='caution'>{escape(CAUTION)}</div>"
+        f"<table class='title'>{table}</table>"
         f"<p class='meta'>{escape(SCOPE)}</p>"
+    )
+
+
+def _contents(
+    r: pd.DataFrame, shown: list[Any], reasons: dict[Any, str], twins: dict[Any, list[Any]]
+) -> str:
+    """The contents list: the overview, then every drawn section with the pairs it stands for."""
+    rows = "".join(
+        f"<tr><td class='num'><a href='#{_anchor(r.loc[i])}'>{n}</a></td>"
+        f"<td><a href='#{_anchor(r.loc[i])}'>{escape(str(r.at[i, 'segment']))}</a></td>"
+        f"<td>{escape(str(r.at[i, 'combination']))}</td><td>{escape(reasons[i])}</td>"
+        f"<td class='num'>{_maybe(r.at[i, 'utilization'], 3)}</td>"
+        f"<td class='twins'>{escape(', '.join(r.loc[twins.get(i, []), 'segment'].astype(str)))}"
+        "</td></tr>"
+        for n, i in enumerate(shown, start=1)
+    )
+    return (
+        "<h2 id='contents'>Contents</h2><div class='contents'>"
+        "<p class='meta'><a href='#overview'>Overview</a> · "
+        "<a href='#informative'>Pairs with informative flags only</a> · "
+        "<a href='#segments'>Segments</a> (numbered below; the printed page numbers are in each "
+        "page's foot)</p>"
+        "<table><tr><th>§</th><th>segment</th><th>load combination</th><th>why drawn</th>"
+        "<th>utilization</th><th>same check, not drawn again</th></tr>"
+        f"{rows}</table></div>"
+    )
+
+
+def _anchor(row: pd.Series) -> str:
+    """The id of a segment's section (the diagram's id with ``seg-`` in place of ``diagram-``)."""
+    return escape(f"seg-{row['segment']}-{row['combination']}".replace(" ", "_"))
+
+
+def _informative(r: pd.DataFrame, drawn: set[Any]) -> str:
+    """Pairs whose only flags inform (no number of their check changed), in one table."""
+    flagged = r[(r["flags"].astype(str) != "") & ~r.index.isin(list(drawn))]
+    rows = "".join(
+        f"<tr><td>{escape(str(g['segment']))}</td><td>{escape(str(g['combination']))}</td>"
+        f"<td>{escape(str(g['flags']))}</td><td class='num'>{_maybe(g['factor'], 3)}</td>"
+        f"<td class='num'>{_maybe(g['utilization'], 3)}</td>"
+        f"<td>{escape(str(g['status']))}</td></tr>"
+        for _, g in flagged.iterrows()
+    )
+    listed = (
+        "<table><tr><th>segment</th><th>load combination</th><th>flags</th><th>factor used</th>"
+        f"<th>utilization</th><th>status</th></tr>{rows}</table>"
+        if rows
+        else "<p class='meta'>None.</p>"
+    )
+    return (
+        "<h2 id='informative'>Pairs with informative flags only</h2><div class='informative'>"
+        f"<p class='meta'>Flags {escape(', '.join(INFORMATIVE))} change no number of the check; "
+        "these pairs are neither governing nor flagged otherwise (flagged.csv has them all).</p>"
+        f"{listed}</div>"
     )
 
 
@@ -221,7 +412,7 @@ def _overview(
         else ""
     )
     return (
-        "<h2>Overview</h2>"
+        "<h2 id='overview'>Overview</h2>"
         + (f"<p><b>{escape(outcome)}</b></p>" if outcome else "")
         + f"<table>{rows}</table>"
         + _no_forces(no_forces)
@@ -237,7 +428,7 @@ def _overview(
             if len(members) > MAX_BARS
             else ""
         )
-        + "<h3>Flags</h3><table><tr><th>flag</th><th>pairs</th><th>meaning</th></tr>"
+        + "<h3 id='flags'>Flags</h3><table><tr><th>flag</th><th>pairs</th><th>meaning</th></tr>"
         + flag_rows
         + "</table>"
         + more
@@ -276,7 +467,15 @@ def _no_forces(members: Sequence[str]) -> str:
     )
 
 
-def _segment_section(result: CheckResult, row: pd.Series, reason: str, key: np.ndarray) -> str:
+def _segment_section(
+    result: CheckResult,
+    row: pd.Series,
+    number: int,
+    reason: str,
+    key: np.ndarray,
+    twins: pd.DataFrame,
+) -> str:
+    """One numbered section: the segment's diagram and derivation, and the twins it stands for."""
     layout = result.layout
     seg = layout.segments.table.loc[row["segment"]]
     member = str(row["member"])
@@ -319,10 +518,13 @@ def _segment_section(result: CheckResult, row: pd.Series, reason: str, key: np.n
         svg_id,
     )
     steps = "".join(
-        f"<tr><td><b>{i}. {escape(step.title)}</b></td>"
-        f"<td class='work'>{escape(chr(10).join(step.lines))}</td>"
-        f"<td class='clause'>{escape(step.clause)}</td></tr>"
-        for i, step in enumerate(derivation(result, row), start=1)
+        f"<tr><td class='title'><b>{i}. {escape(step.title)}</b><br>"
+        f"<span class='clause'>{escape(step.clause)}</span></td>"
+        f"<td class='work'>{escape(chr(10).join(step.lines))}</td></tr>"
+        # The flags' meanings stand once in the overview's table, not again in every section.
+        for i, step in enumerate(
+            [s for s in derivation(result, row) if s.title != "Flags"], start=1
+        )
     )
     util = row["utilization"]
     verdict = (
@@ -337,17 +539,38 @@ def _segment_section(result: CheckResult, row: pd.Series, reason: str, key: np.n
         else f"no exact factor ({escape(no_exact_reason(row))})"
     )
     return (
-        f"<section class='segment' id='{escape(svg_id.replace('diagram-', 'seg-'))}'>"
-        f"<h3>{escape(str(row['segment']))} · {escape(str(row['combination']))} "
+        f"<section class='segment' id='{_anchor(row)}'>"
+        f"<h3>§{number} {escape(str(row['segment']))} · {escape(str(row['combination']))} "
         f"({reason})</h3>"
+        f"{_twin_words(layout.segments.table, twins)}"
         f"<p>Member {escape(member)}, section {escape(str(row['section']))}; "
         f"compression checked in the <b>{flange}</b>; from node {escape(str(seg['node_start']))}"
         f" to {escape(str(seg['node_end']))}, Lu = {row['length'] / M:.3f} m; factor used "
-        f"{row['factor']:.3f}, {exact}; {verdict}; flags: {flags}.</p>"
+        f"{row['factor']:.3f}, {exact}; {verdict}; flags: {flags} (meanings: "
+        "<a href='#flags'>Flags</a>).</p>"
         f"{chart}"
         "<p class='meta'>▼ top flange braced · ▲ bottom flange braced · shaded: this segment</p>"
-        f"<table class='steps'><tr><th>step</th><th>working</th><th>clause</th></tr>{steps}"
-        "</table>"
-        f"<div class='caution'>{escape(CAUTION)}</div>"
+        f"<table class='steps'><tr><th>step and clause</th><th>working</th></tr>{steps}</table>"
+        f"<div class='caution small'>{escape(CAUTION)}</div>"
         "</section>"
+    )
+
+
+def _twin_words(segments: pd.DataFrame, twins: pd.DataFrame) -> str:
+    """The pairs whose check this section repeats to the printed digits, with their own nodes."""
+    if twins.empty:
+        return ""
+    ends = segments.loc[twins["segment"].astype(str), ["node_start", "node_end"]].to_numpy()
+    named = "; ".join(
+        # Each twin keeps its own id, so links to it (contents, other tests) land here.
+        f"<span id='{_anchor(t)}'>{escape(str(t['segment']))}</span> ("
+        + escape(
+            f"member {t['member']}, from node {a} to {b}, utilization {_maybe(t['utilization'], 3)}"
+        )
+        + ")"
+        for (_, t), (a, b) in zip(twins.iterrows(), ends, strict=True)
+    )
+    return (
+        "<p class='twins'>The same check to the digits shown (combination, section, flange, "
+        f"length, end moments, factor, Mr, demand, flags), not drawn again: {named}.</p>"
     )
