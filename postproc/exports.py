@@ -53,6 +53,12 @@ WORST_RULE = (
     "M10), then the segment first in natural order, then the load combination first in the model"
 )
 
+#: Signed end moments: the header says which sign is which (the segment's own flange; an
+#: "either" segment of a steep member keeps the model's sign, + compressing the top flange).
+SIGN = "+ compresses segment's flange, top if either"
+M_START = f"M start [kN·m, {SIGN}]"
+M_END = f"M end [kN·m, {SIGN}]"
+
 #: The share of |M|max column's header: a dimensionless share, named for what it divides by.
 DEPARTURE = "departure from line [share of |M| max]"
 
@@ -77,8 +83,8 @@ def segment_table(result: CheckResult) -> pd.DataFrame:
             "start [m]": table["s_start"].to_numpy()[k] / M,
             "end [m]": table["s_end"].to_numpy()[k] / M,
             "Lu [m]": r["length"].to_numpy() / M,
-            "M start [kN·m]": r["M_start"].to_numpy() / KNM + 0.0,
-            "M end [kN·m]": r["M_end"].to_numpy() / KNM + 0.0,
+            M_START: r["M_start"].to_numpy() / KNM + 0.0,
+            M_END: r["M_end"].to_numpy() / KNM + 0.0,
             "|M| max [kN·m]": r["M_max"].to_numpy() / KNM,
             "|M| larger end [kN·m]": np.maximum(np.abs(r["M_start"]), np.abs(r["M_end"])).to_numpy()
             / KNM,

@@ -95,3 +95,30 @@ def test_csv_in_many_chunks_is_one_file_with_one_header(tmp_path):
     back = pd.read_csv(tmp_path / "a.csv", encoding="utf-8-sig")
     assert back["name"].tolist() == table["name"].tolist()
     np.testing.assert_allclose(back["ω2"], table["ω2"], rtol=5e-6)
+
+
+def test_signed_moments_say_their_sign_in_the_header(tmp_path):
+    code, output = _check(sample_path("two_span_beam"), tmp_path / "r")
+    assert code == 0, output
+    seg = pd.read_csv(tmp_path / "r" / "segments.csv", encoding="utf-8-sig")
+    signed = "M start [kN·m, + compresses segment's flange, top if either]"
+    assert signed in seg.columns
+    assert "M end [kN·m, + compresses segment's flange, top if either]" in seg.columns
+    assert "M start [kN·m]" not in seg.columns
+    # Every other moment column is a size and says |M|.
+    moments = [c for c in seg.columns if "kN·m" in c and c.startswith("M") and "|" not in c]
+    assert sorted(moments) == sorted(
+        [
+            signed,
+            "M end [kN·m, + compresses segment's flange, top if either]",
+            "Mcr [kN·m]",
+            "Mcr exact [kN·m]",
+            "Mp or My [kN·m]",
+            "Mr [kN·m]",
+            "Mr exact [kN·m]",
+        ]
+    )
+    # A checked pair's demand is the larger of its compressing moments: a signed end moment above
+    # it would contradict the stated sign.
+    checked = seg[seg["status"].isin(["ok", "over"])]
+    assert (checked[signed] <= checked["demand [kN·m]"] + 1e-6).all()

@@ -6,6 +6,7 @@ from __future__ import annotations
 import pandas as pd
 import pytest
 from click.testing import CliRunner
+from flangewise.postproc import exports
 from flangewise.postproc.cli import main, sample_path
 
 
@@ -96,7 +97,7 @@ def test_platform_inside_peak_rejects_the_end_moment_formula(platform):
     row = hit.iloc[0]
     assert "peak-inside" in row["flags"]
     # README: ends 19.4 and 20.3 kN·m, 38.1 inside (the girder's own load between the braces).
-    assert row["|M| inside peak [kN·m]"] > max(row["M start [kN·m]"], row["M end [kN·m]"])
+    assert row["|M| inside peak [kN·m]"] > max(row[exports.M_START], row[exports.M_END])
     assert row["ω2 end-moment"] == 1.0
     assert row["factor used"] == 1.0
 

@@ -17,6 +17,7 @@ import math
 import pandas as pd
 import pytest
 from click.testing import CliRunner
+from flangewise.postproc import exports
 from flangewise.postproc.cli import main, sample_path
 
 SAMPLE = sample_path("industrial_shed")
@@ -66,8 +67,8 @@ def test_end_moments_kappa_and_omega2(row):
     m_brace = r02.loc[r02["position"].idxmax(), "M"]
     # Both hogging (negative = bottom flange in compression); the tool reports moments as
     # compression of the segment's own flange, so the signs flip.
-    assert row["M start [kN·m]"] == pytest.approx(-m_knee, rel=REL)
-    assert row["M end [kN·m]"] == pytest.approx(-m_brace, rel=REL)
+    assert row[exports.M_START] == pytest.approx(-m_knee, rel=REL)
+    assert row[exports.M_END] == pytest.approx(-m_brace, rel=REL)
     # Same sign at both ends: single curvature, κ negative (cl. 13.6(a)).
     kappa = -abs(m_brace) / abs(m_knee)
     assert row["κ"] == pytest.approx(kappa, abs=1e-4)
