@@ -33,6 +33,8 @@ from flangewise.postproc.derivation import (
     source_words,
 )
 from flangewise.postproc.exports import CAUTION, LOAD_HEIGHT_WORDS, METHOD_WORDS
+from flangewise.postproc.keyplan import CSS as KEY_CSS
+from flangewise.postproc.keyplan import key_plan
 from flangewise.postproc.svg import Marker, moment_diagram, utilization_bars
 
 KNM = 1.0e6
@@ -100,7 +102,7 @@ table.title td:first-child { width: 9rem; color: #444; }
   section.segment p { margin: .2rem 0; }
   svg.diagram { max-width: 460px; margin: .1rem 0; } svg.bars { max-width: 520px; }
   svg.plan { max-width: 640px; } a { color: inherit; text-decoration: none; }
-  .contents, .informative, .title { break-inside: auto; }
+  .contents, .informative, .title { break-inside: auto; } .keyplan { break-inside: avoid; }
 }
 """
 
@@ -152,6 +154,7 @@ def build_report(
         _header(result, model_folder, settings_text, selection, inputs, short),
         _contents(r, shown, reasons, twins),
         _overview(result, gov, omitted, outcome, no_forces),
+        _key_plan(result, gov),
         _informative(r, set(drawn) | {j for t in twins.values() for j in t}),
         "<h2 id='segments'>Governing and flagged segments (every flag that changed a result)</h2>",
     ]
@@ -163,8 +166,22 @@ def build_report(
     return (
         "<!DOCTYPE html>\n<html lang='en'><head><meta charset='utf-8'>"
         f"<title>flangewise review: {escape(model_folder.name)}</title>"
-        f"<style>{CSS}{PAGE_CSS.replace('{foot}', foot)}</style></head>"
+        f"<style>{CSS}{KEY_CSS}{PAGE_CSS.replace('{foot}', foot)}</style></head>"
         f"<body>{''.join(body)}</body></html>\n"
+    )
+
+
+def _key_plan(result: CheckResult, gov: pd.DataFrame) -> str:
+    """The key plan section: where each member is, shaded by its governing utilization."""
+    util = dict(zip(gov["member"].astype(str), gov["utilization"].astype(float), strict=True))
+    members = result.layout.members.table
+    run = members[members.index.astype(str).isin(result.results["member"].astype(str).unique())]
+    return (
+        "<h2 id='keyplan'>Key plan</h2><div class='keyplan'>"
+        "<p class='meta'>Every member of this run, named where it stands and shaded by its "
+        "governing utilization; members that fall on one another in a view are named together "
+        "and shaded by the highest of them.</p>"
+        f"{key_plan(run, util)}</div>"
     )
 
 
@@ -303,6 +320,7 @@ def _contents(
     return (
         "<h2 id='contents'>Contents</h2><div class='contents'>"
         "<p class='meta'><a href='#overview'>Overview</a> · "
+        "<a href='#keyplan'>Key plan</a> · "
         "<a href='#informative'>Pairs with informative flags only</a> · "
         "<a href='#segments'>Segments</a> (numbered below; the printed page numbers are in each "
         "page's foot)</p>"

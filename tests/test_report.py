@@ -13,10 +13,17 @@ import struct
 import subprocess
 from pathlib import Path
 
+import numpy as np
 import pandas as pd
 import pytest
 from click.testing import CliRunner
 from flangewise.postproc.cli import main, sample_path
+from flangewise.postproc.keyplan import (
+    band_classes,
+    elevation_axis,
+    label_box,
+    place_labels,
+)
 
 CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
 FLAGS = [
@@ -155,3 +162,63 @@ def _number(text: str, pattern: str, **kw: bool) -> float | str:
     found = re.search(pattern, text)
     assert found, pattern
     return found.group(1) if kw.get("text") else float(found.group(1))
+
+
+def test_key_plan_names_every_member_in_plan_and_elevation(tmp_path):
+    html, _ = _report("industrial_shed", tmp_path / "out")
+    text = html.read_text(encoding="utf-8")
+    plan = text[text.index('id="key-plan"') :]
+    plan = plan[: plan.index("</svg>")]
+    elevation = text[text.index('id="key-elevation"') :]
+    elevation = elevation[: elevation.index("</svg>")]
+    named_plan = re.findall(r'class="name" text-anchor="middle">([^<]+)</text>', plan)
+    named_elev = re.findall(r'class="name" text-anchor="middle">([^<]+)</text>', elevation)
+    members = [f"M{i}" for i in range(1, 17)]
+    # Every member named once in each view; the shed's four frames fall on one another in
+    # elevation, so they are named together there.
+    assert sorted(n for label in named_plan for n in label.split(", ")) == sorted(members)
+    assert sorted(n for label in named_elev for n in label.split(", ")) == sorted(members)
+    assert "M2, M4, M6, M8" in named_elev
+    # The shed spans 24 m in x and 18 m in y: the elevation looks along y.
+    assert "Elevation (x–z), looking along y" in elevation
+    # M4 governs at 0.844 (the shed's worst member): shaded in the 0.70 to 0.90 band.
+    assert re.search(r'class="u3"><title>[^<]*M4: 0\.844', plan)
+
+
+def test_utilization_bands_and_the_elevation_axis():
+    values = np.array([0.0, 0.5, 0.5001, 0.7, 0.9, 1.0, 1.0001, np.nan])
+    assert band_classes(values).tolist() == ["u1", "u1", "u2", "u2", "u3", "u4", "u5", "u0"]
+    wide_in_y = pd.DataFrame(
+        {"x0": [0.0], "y0": [0.0], "z0": [0.0], "x1": [1000.0], "y1": [9000.0], "z1": [0.0]}
+    )
+    assert elevation_axis(wide_in_y) == "y"
+    wide_in_x = wide_in_y.assign(x1=9000.0, y1=1000.0)
+    assert elevation_axis(wide_in_x) == "x"
+
+
+def test_labels_overlap_neither_one_another_nor_the_drawing():
+    # A crowded view: 12 members meeting at one point, each named at its middle.
+    angles = np.linspace(0, 2 * np.pi, 12, endpoint=False)
+    p0 = np.tile([[300.0, 200.0]], (12, 1))
+    p1 = p0 + 120 * np.column_stack([np.cos(angles), np.sin(angles)])
+    anchors = [
+        (*((a + b) / 2), 1.0, f"M{i + 100}") for i, (a, b) in enumerate(zip(p0, p1, strict=True))
+    ]
+    placed = place_labels(anchors, p0, p1, 760, 420)
+    boxes = np.array([label_box(x, y, text) for x, y, text in placed])
+    for i in range(len(boxes)):
+        for j in range(i + 1, len(boxes)):
+            a, b = boxes[i], boxes[j]
+            assert not (a[0] < b[2] and b[0] < a[2] and a[1] < b[3] and b[1] < a[3]), (i, j)
+    # No point of any member inside any label.
+    t = np.linspace(0, 1, 200)[:, None]
+    for a, b in zip(p0, p1, strict=True):
+        line = a + (b - a) * t
+        for box in boxes:
+            inside = (
+                (line[:, 0] > box[0])
+                & (line[:, 0] < box[2])
+                & (line[:, 1] > box[1])
+                & (line[:, 1] < box[3])
+            )
+            assert not inside.any()
