@@ -41,6 +41,12 @@ EXACT_MARGIN = 0.05
 #: rounding of exported moments, well below a transverse load that changes ω2 noticeably).
 LINE_SHARE = 0.05
 
+#: An axial force above this share of the squash load A·fy is flagged ``axial-force`` (common
+#: practice: below about 5 % the axial force barely changes a member's bending resistance, which
+#: is why design codes let a lightly loaded member be checked for bending alone; above it the
+#: interaction of axial force and bending needs its own check, which this tool does not make).
+AXIAL_SHARE = 0.05
+
 
 @dataclass(frozen=True)
 class DiagramShape:
@@ -134,7 +140,8 @@ def check_pairs(layout: Layout, props: pd.DataFrame, settings: CheckSettings) ->
     design-basis factor with its fall-backs), ``factor`` (the factor used: the basis factor,
     limited to the exact factor where flagged ``code-factor-high`` and ``limit_to_exact`` is on),
     ``Mcr``, ``M_base`` (Mp for class 1-2, My for class 3), ``Mr``, ``Mr_exact``, ``demand``,
-    ``utilization``, ``utilization_exact``,
+    ``utilization``, ``utilization_exact``, ``axial_share`` (largest |N| of the run ÷ A·fy; NaN
+    without an N column),
     ``status`` ("ok", "over", "not critical", "not checked"), ``flags`` and one boolean column
     per flag name (``flag_<name>``).
     """
@@ -216,6 +223,10 @@ def check_pairs(layout: Layout, props: pd.DataFrame, settings: CheckSettings) ->
     mr_exact = resistance.m_r(exact.m_cr, m_base, settings.phi)
     checked = compressed & ~class4
     demand = pairs["demand"].to_numpy()
+    # The settings give no sign convention for N: take |N| (tension counts too, conservative).
+    with np.errstate(invalid="ignore", divide="ignore"):
+        axial = pairs["axial"] if "axial" in pairs else np.full(len(pairs), np.nan)
+        axial_share = np.asarray(axial, dtype=np.float64) / (prop("A") * prop("fy"))
     with np.errstate(invalid="ignore", divide="ignore"):
         utilization = np.where(checked, demand / mr, np.nan)
         utilization_exact = np.where(checked, demand / mr_exact, np.nan)
@@ -235,6 +246,7 @@ def check_pairs(layout: Layout, props: pd.DataFrame, settings: CheckSettings) ->
         "assumed-brace": seg["assumed"].to_numpy()[k] & compressed,
         "code-factor-high": high & checked,
         "not-end-moments": off_line & checked,
+        "axial-force": (axial_share > AXIAL_SHARE) & checked,  # False where N is missing (NaN)
     }
     out = pd.DataFrame(
         {
@@ -281,6 +293,7 @@ def check_pairs(layout: Layout, props: pd.DataFrame, settings: CheckSettings) ->
             "Mr": mr,
             "Mr_exact": np.where(checked, mr_exact, np.nan),
             "demand": demand,
+            "axial_share": axial_share,
             "utilization": utilization,
             "utilization_exact": utilization_exact,
             "status": status,

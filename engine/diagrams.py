@@ -40,12 +40,14 @@ class Stations:
         element: row in ``Members.elements`` (member order).
         s: distance from the member's start [mm].
         M: moment [N·mm], positive when it compresses the top flange.
+        N: axial force [N] with the file's own sign; NaN where the forces have no N column.
     """
 
     combination: np.ndarray
     element: np.ndarray
     s: np.ndarray
     M: np.ndarray
+    N: np.ndarray | None = None
 
 
 @dataclass(frozen=True)
@@ -56,7 +58,8 @@ class SegmentDiagrams:
         pairs: one row per pair, in the order of the runs: ``segment`` (row number in
             ``Segments.table``), ``combination`` (code into ``combinations``), ``compressed``
             (the segment's flange is in compression somewhere), ``demand`` [N·mm] (the largest
-            moment that compresses that flange, 0 when none does).
+            moment that compresses that flange, 0 when none does), ``axial`` [N] (the largest
+            |N| of the run: the file's sign of N is not known; NaN without an N column).
         x: distance from the segment's start [mm], per station, runs back to back.
         m: moment [N·mm] per station, positive when it compresses the segment's flange (for a
             steep member's "either" segment: the model's own sign).
@@ -103,6 +106,7 @@ def member_stations(model: Model, members: Members) -> Stations:
         element=erow,
         s=_merge_close(s, at_node, group_start),
         M=f["M"].to_numpy()[order],
+        N=(f["N"].to_numpy(dtype=np.float64) if "N" in f else np.full(len(f), np.nan))[order],
     )
 
 
@@ -168,12 +172,15 @@ def segment_diagrams(model: Model, members: Members, segments: Segments) -> Segm
     peak_pos = np.maximum.reduceat(m, starts) if len(m) else np.zeros(0)
     peak_abs = np.maximum.reduceat(np.abs(m), starts) if len(m) else np.zeros(0)
     demand = np.where(either, peak_abs, np.maximum(peak_pos, 0.0))
+    n_abs = np.abs(st.N[row_all]) if st.N is not None else np.full(len(row_all), np.nan)
+    axial = np.fmax.reduceat(n_abs, starts) if len(n_abs) else np.zeros(0)  # fmax: NaN skipped
     pairs = pd.DataFrame(
         {
             "segment": seg_of_run,
             "combination": combo[starts],
             "compressed": demand > 0.0,
             "demand": demand,
+            "axial": axial,
         }
     )
     return SegmentDiagrams(pairs=pairs, x=x, m=m, offsets=offsets, combinations=combos, stations=st)

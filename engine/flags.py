@@ -26,6 +26,9 @@ FLAGS: dict[str, str] = {
     "not-end-moments": "the end-moment formula was used on a diagram that is not end moments "
     "only: an inside station lies more than 5 % of |M|max off the straight line between the end "
     "moments, or the moment jumps inside (see the departure and jump columns)",
+    "axial-force": "the segment carries an axial force above 5 % of its squash load A·fy (column "
+    "|N|/(A·fy)): axial force and its interaction with bending are NOT checked by this tool. The "
+    "file's sign of N is not known, so |N| is taken and tension counts too (conservative)",
 }
 
 

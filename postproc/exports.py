@@ -59,6 +59,9 @@ SIGN = "+ compresses segment's flange, top if either"
 M_START = f"M start [kN·m, {SIGN}]"
 M_END = f"M end [kN·m, {SIGN}]"
 
+#: The axial force column's header: the largest |N| of the pair ÷ the squash load.
+AXIAL = "|N|/(A·fy)"
+
 #: The share of |M|max column's header: a dimensionless share, named for what it divides by.
 DEPARTURE = "departure from line [share of |M| max]"
 
@@ -111,6 +114,7 @@ def segment_table(result: CheckResult) -> pd.DataFrame:
             "Mr [kN·m]": r["Mr"].to_numpy() / KNM,
             "Mr exact [kN·m]": r["Mr_exact"].to_numpy() / KNM,
             "demand [kN·m]": r["demand"].to_numpy() / KNM,
+            AXIAL: r["axial_share"].to_numpy(),
             "utilization": r["utilization"].to_numpy(),
             "utilization exact": r["utilization_exact"].to_numpy(),
             "status": r["status"].array,

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import shutil
 from pathlib import Path
 
 import numpy as np
@@ -122,3 +123,43 @@ def test_signed_moments_say_their_sign_in_the_header(tmp_path):
     # it would contradict the stated sign.
     checked = seg[seg["status"].isin(["ok", "over"])]
     assert (checked[signed] <= checked["demand [kN·m]"] + 1e-6).all()
+
+
+def _scaled_axial(tmp_path: Path, factor: float) -> Path:
+    folder = tmp_path / "shed"
+    shutil.copytree(sample_path("industrial_shed"), folder)
+    forces = pd.read_csv(folder / "forces.csv", dtype={"combination": str})
+    forces["N"] = forces["N"] * factor
+    forces.to_csv(folder / "forces.csv", index=False)
+    return folder
+
+
+def test_axial_force_above_five_percent_of_squash_load_is_flagged(tmp_path):
+    code, output = _check(sample_path("industrial_shed"), tmp_path / "a")
+    assert code == 0, output
+    plain = pd.read_csv(tmp_path / "a" / "segments.csv", encoding="utf-8-sig")
+    ratio = plain["|N|/(A·fy)"]
+    assert ratio.notna().all() and (ratio > 0.0).all()
+    assert ratio.max() < 0.05  # the sample's rafters and posts carry little axial force
+    assert not plain["flags"].fillna("").str.contains("axial-force").any()
+
+    code, output = _check(_scaled_axial(tmp_path, 5.0), tmp_path / "b")
+    seg = pd.read_csv(tmp_path / "b" / "segments.csv", encoding="utf-8-sig")
+    # |N|/(A·fy) is linear in N (common practice: the squash load A·fy does not depend on N).
+    np.testing.assert_allclose(seg["|N|/(A·fy)"], 5.0 * ratio, rtol=1e-4)
+    checked = seg["status"].isin(["ok", "over"])
+    flagged = seg["flags"].fillna("").str.contains("axial-force")
+    assert flagged.any() and (~flagged).any()
+    assert (flagged == (checked & (seg["|N|/(A·fy)"] > 0.05))).all()
+    assert "axial-force" in output
+    info = json.loads((tmp_path / "b" / "summary.json").read_text(encoding="utf-8"))
+    assert info["flags"]["axial-force"] == int(flagged.sum())
+    assert "not checked" in info["flag meanings"]["axial-force"].lower()
+
+
+def test_no_axial_column_means_no_ratio_and_no_flag(tmp_path):
+    code, output = _check(sample_path("two_span_beam"), tmp_path / "r")
+    assert code == 0, output
+    seg = pd.read_csv(tmp_path / "r" / "segments.csv", encoding="utf-8-sig")
+    assert seg["|N|/(A·fy)"].isna().all()
+    assert not seg["flags"].fillna("").str.contains("axial-force").any()
