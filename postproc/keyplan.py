@@ -226,9 +226,9 @@ def _along(p0: np.ndarray, p1: np.ndarray, step: float) -> np.ndarray:
     return p0[owner] + (p1[owner] - p0[owner]) * t[:, None]
 
 
-def label_box(x: float, y: float, text: str) -> np.ndarray:
+def label_box(x: float, y: float, text: str, char_px: float = CHAR_PX) -> np.ndarray:
     """The box [left, top, right, bottom] a label of ``text`` takes, baseline centre (x, y)."""
-    w = CHAR_PX * len(text) + 4
+    w = char_px * len(text) + 4
     return np.array([x - w / 2, y + 2 - LABEL_PX, x + w / 2, y + 2])
 
 
@@ -238,11 +238,14 @@ def place_labels(
     p1: np.ndarray,
     width: float,
     height: float,
+    char_px: float = CHAR_PX,
+    top: float = 16.0,
 ) -> list[tuple[float, float, str]]:
     """Place each label near its anchor where it overlaps no placed label and no end point.
 
-    Greedy, nearest offset first; a label that finds no free place takes its first offset (it
-    is still named; overlaps are then possible only in very crowded views).
+    Labels stay inside ``top`` … ``height`` and 0 … ``width`` [px]. Greedy, nearest offset
+    first; a label that finds no free place takes its first offset (it is still named; overlaps
+    are then possible only in very crowded views).
 
     Returns:
         (x, y of the text's baseline centre, text) per label; ``label_box`` gives its box.
@@ -255,8 +258,8 @@ def place_labels(
     for x, y, _, text in anchors:
         chosen = None
         for dx, dy in OFFSETS:
-            box = label_box(x + dx, y + dy, text)
-            if box[0] < 0 or box[2] > width or box[1] < 16 or box[3] > height:
+            box = label_box(x + dx, y + dy, text, char_px)
+            if box[0] < 0 or box[2] > width or box[1] < top or box[3] > height:
                 continue
             hit_box = (
                 (boxes[:, 0] < box[2])
@@ -274,7 +277,7 @@ def place_labels(
                 chosen = box
                 break
         if chosen is None:
-            chosen = label_box(x + OFFSETS[0][0], y + OFFSETS[0][1], text)
+            chosen = label_box(x + OFFSETS[0][0], y + OFFSETS[0][1], text, char_px)
         boxes = np.vstack([boxes, chosen])
         out.append(((chosen[0] + chosen[2]) / 2, chosen[3] - 2, text))
     return out

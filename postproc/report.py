@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import datetime as dt
 import hashlib
+import re
 from collections.abc import Mapping, Sequence
 from html import escape
 from importlib.metadata import version
@@ -35,7 +36,7 @@ from flangewise.postproc.derivation import (
 from flangewise.postproc.exports import CAUTION, LOAD_HEIGHT_WORDS, METHOD_WORDS
 from flangewise.postproc.keyplan import CSS as KEY_CSS
 from flangewise.postproc.keyplan import key_plan
-from flangewise.postproc.svg import Marker, moment_diagram, utilization_bars
+from flangewise.postproc.svg import Marker, moment_diagram, number, utilization_bars
 
 KNM = 1.0e6
 M = 1.0e3
@@ -167,8 +168,17 @@ def build_report(
         "<!DOCTYPE html>\n<html lang='en'><head><meta charset='utf-8'>"
         f"<title>flangewise review: {escape(model_folder.name)}</title>"
         f"<style>{CSS}{KEY_CSS}{PAGE_CSS.replace('{foot}', foot)}</style></head>"
-        f"<body>{''.join(body)}</body></html>\n"
+        f"<body>{no_negative_zero(''.join(body))}</body></html>\n"
     )
+
+
+#: A zero written with a minus sign (−0.0, -0.00, -0): a number that rounds to zero.
+NEGATIVE_ZERO = re.compile(r"(?<![\w.])[-−](0(?:\.0+)?)(?![\d.])")
+
+
+def no_negative_zero(text: str) -> str:
+    """``text`` with every negative zero (−0.0 from a tiny negative value) written 0.0."""
+    return NEGATIVE_ZERO.sub(r"\1", text)
 
 
 def _key_plan(result: CheckResult, gov: pd.DataFrame) -> str:
@@ -488,7 +498,7 @@ def _no_forces(members: Sequence[str]) -> str:
 def _segment_section(
     result: CheckResult,
     row: pd.Series,
-    number: int,
+    ordinal: int,
     reason: str,
     key: np.ndarray,
     twins: pd.DataFrame,
@@ -500,19 +510,22 @@ def _segment_section(
     s, m = member_diagram(layout.diagrams, layout.members, member, str(row["combination"]), key)
     st = layout.segments.stations
     mst = st[st["member"] == member]
+    # Every brace point and both member ends, each with its node id under the chart.
     markers = [
         Marker(
             float(p) / M,
-            "both" if (t and b) else ("top" if t else "bottom"),
+            "both" if (t and b) else ("top" if t else ("bottom" if b else "")),
             str(n),
         )
-        for p, t, b, n in zip(mst["s"], mst["top"], mst["bottom"], mst["node"], strict=True)
-        if t or b
+        for p, t, b, n, e in zip(
+            mst["s"], mst["top"], mst["bottom"], mst["node"], mst["end"], strict=True
+        )
+        if t or b or e != ""
     ]
     sign = -1.0 if row["flange"] == "bottom" else 1.0  # results are in flange-compression sign
     labels = [
-        (seg["s_start"] / M, sign * row["M_start"] / KNM, f"{sign * row['M_start'] / KNM:.1f}"),
-        (seg["s_end"] / M, sign * row["M_end"] / KNM, f"{sign * row['M_end'] / KNM:.1f}"),
+        (seg["s_start"] / M, sign * row["M_start"] / KNM, number(sign * row["M_start"] / KNM)),
+        (seg["s_end"] / M, sign * row["M_end"] / KNM, number(sign * row["M_end"] / KNM)),
     ]
     # The inside peak is labelled where it matters: it rejects the end-moment formula, or it
     # stands clear of both ends (a peak next to an end would only print over the end's label).
@@ -521,7 +534,7 @@ def _segment_section(
         at = seg["s_start"] + row["inside_peak_at"]
         near = int(np.argmin(np.abs(s - at))) if len(s) else 0
         value = float(m[near]) / KNM if len(m) else 0.0
-        labels.append((at / M, value, f"inside peak {value:.1f}"))
+        labels.append((at / M, value, f"inside peak {number(value)}"))
     flange = {"top": "top flange", "bottom": "bottom flange", "either": "either flange"}[
         str(row["flange"])
     ]
@@ -538,7 +551,7 @@ def _segment_section(
     steps = "".join(
         f"<tr><td class='title'><b>{i}. {escape(step.title)}</b><br>"
         f"<span class='clause'>{escape(step.clause)}</span></td>"
-        f"<td class='work'>{escape(chr(10).join(step.lines))}</td></tr>"
+        f"<td class='work'>{escape(no_negative_zero(chr(10).join(step.lines)))}</td></tr>"
         # The flags' meanings stand once in the overview's table, not again in every section.
         for i, step in enumerate(
             [s for s in derivation(result, row) if s.title != "Flags"], start=1
@@ -558,7 +571,7 @@ def _segment_section(
     )
     return (
         f"<section class='segment' id='{_anchor(row)}'>"
-        f"<h3>§{number} {escape(str(row['segment']))} · {escape(str(row['combination']))} "
+        f"<h3>§{ordinal} {escape(str(row['segment']))} · {escape(str(row['combination']))} "
         f"({reason})</h3>"
         f"{_twin_words(layout.segments.table, twins)}"
         f"<p>Member {escape(member)}, section {escape(str(row['section']))}; "

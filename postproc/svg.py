@@ -9,17 +9,35 @@ from dataclasses import dataclass
 from html import escape
 
 import numpy as np
+from flangewise.postproc.keyplan import place_labels
 
-WIDTH, HEIGHT = 760, 300
-LEFT, RIGHT, TOP, BOTTOM = 64, 20, 36, 44
+#: Moment labels (bold 11 px sans-serif): estimated px per character.
+LABEL_CHAR_PX = 6.8
+
+WIDTH, HEIGHT = 760, 320
+LEFT, RIGHT, TOP, BOTTOM = 64, 20, 40, 70
+#: Node ids under the chart: this many px per character (11 px sans-serif) and two rows, the
+#: second for an id that would touch its neighbour in the first.
+ID_CHAR_PX = 6.2
+
+
+def number(value: float, digits: int = 1, sign: bool = False) -> str:
+    """``value`` to ``digits`` decimals with a true minus sign and never a negative zero.
+
+    A value that rounds to zero prints as 0.0, not −0.0 (a sign with no magnitude reads as a
+    result on the other side).
+    """
+    v = round(float(value), digits) + 0.0  # + 0.0 turns -0.0 into 0.0
+    text = f"{v:+.{digits}f}" if sign and v != 0 else f"{v:.{digits}f}"
+    return text.replace("-", "−")
 
 
 @dataclass(frozen=True)
 class Marker:
-    """A brace point under the chart: position along the member [m] and which flange."""
+    """A point of the member under the chart: position along it [m], flange braced, node id."""
 
     s: float
-    flange: str  # "top", "bottom" or "both"
+    flange: str  # "top", "bottom", "both", or "" (a member end that holds neither flange)
     label: str
 
 
@@ -43,7 +61,8 @@ def moment_diagram(
         s: positions along the member [m], in order (repeated at a jump).
         m: moments [kN·m], positive when they compress the top flange (drawn upwards).
         shade: start and end of the segment to shade [m].
-        markers: brace points to mark (▼ top flange above the chart, ▲ bottom flange below).
+        markers: brace points and member ends to mark (▼ top flange braced above the chart, ▲
+            bottom flange braced below); each one's node id is printed under the chart.
         labels: (s, M, text) labels to place at points of the diagram.
         title: the chart's caption.
         svg_id: the element id (tests and links find the chart by it).
@@ -68,7 +87,7 @@ def moment_diagram(
     for v in (-m_abs, m_abs):
         parts.append(
             f'<text x="{x0 - 6}" y="{float(fy(v)) + 4:.1f}" class="tick" text-anchor="end">'
-            f"{v:+.0f}</text>"
+            f"{number(v, 0, sign=True)}</text>"
         )
     parts.append(
         f'<text x="14" y="{(y0 + y1) / 2:.0f}" class="tick" '
@@ -77,8 +96,8 @@ def moment_diagram(
     )
     for v in np.linspace(0.0, s_max, 5):
         parts.append(
-            f'<text x="{float(fx(v)):.1f}" y="{y1 + 16}" class="tick" text-anchor="middle">'
-            f"{v:.2f}</text>"
+            f'<text x="{float(fx(v)):.1f}" y="{y1 + 50}" class="tick" text-anchor="middle">'
+            f"{number(v, 2)}</text>"
         )
     parts.append(
         f'<text x="{(x0 + x1) / 2:.0f}" y="{HEIGHT - 6}" class="tick" text-anchor="middle">'
@@ -104,22 +123,42 @@ def moment_diagram(
                 f'class="brace-bottom"><title>{escape(mk.label)}: bottom flange braced</title>'
                 "</path>"
             )
-    for i, (ls, lm, text) in enumerate(labels):
-        x, y = float(fx(ls)), float(fy(lm))
-        # End labels outside the curve; later labels (the inside peak) on the other side, so
-        # that a peak close to an end does not print over the end's label.
-        outside = lm >= 0
-        dy = (-8 if outside else 16) if i < 2 else (16 if outside else -8)
-        text = text.replace("-", "−")
+    parts.extend(_node_ids(markers, fx, y1))
+    dots = np.array([[float(fx(ls)), float(fy(lm))] for ls, lm, _ in labels]).reshape(-1, 2)
+    for x, y in dots:
         parts.append(f'<circle cx="{x:.1f}" cy="{y:.1f}" r="3" class="dot"/>')
-        # Keep labels inside the picture near its left and right edges.
-        anchor = "end" if x > x1 - 60 else ("start" if x < x0 + 60 else "middle")
+    # Labels avoid one another, the dots, the brace markers and the curve itself.
+    curve = np.column_stack([fx(s), fy(m)]) if len(s) > 1 else np.empty((0, 2))
+    # Labels stay inside the plot, below the caption and the top brace markers.
+    marks = np.array(
+        [[float(fx(mk.s)) + dx, y0 - 7.0] for mk in markers for dx in (-6.0, 0.0, 6.0)]
+    ).reshape(-1, 2)
+    points = np.vstack([dots, marks])
+    a = np.vstack([curve[:-1], points]) if len(curve) else points
+    b = np.vstack([curve[1:], points]) if len(curve) else points
+    anchors = [(x, y, 0.0, text) for (x, y), (_, _, text) in zip(dots, labels, strict=True)]
+    for x, y, text in place_labels(anchors, a, b, WIDTH, y1 + 1, char_px=LABEL_CHAR_PX, top=y0):
         parts.append(
-            f'<text x="{x:.1f}" y="{y + dy:.1f}" class="lab" text-anchor="{anchor}">'
-            f"{escape(text)}</text>"
+            f'<text x="{x:.1f}" y="{y:.1f}" class="lab" text-anchor="middle">{escape(text)}</text>'
         )
     parts.append("</svg>")
     return "".join(parts)
+
+
+def _node_ids(markers: list[Marker], fx, y1: float) -> list[str]:  # type: ignore[no-untyped-def]
+    """The node id under each marker, in two rows so that neighbours never touch."""
+    parts = []
+    right_end = [-np.inf, -np.inf]  # where the last id of each row ends [px]
+    for mk in sorted(markers, key=lambda k: k.s):
+        x = float(fx(mk.s))
+        half = ID_CHAR_PX * len(mk.label) / 2 + 2
+        row = 0 if x - half > right_end[0] else 1
+        right_end[row] = max(right_end[row], x + half)
+        parts.append(
+            f'<text x="{x:.1f}" y="{y1 + 24 + 11 * row}" class="tick node" '
+            f'text-anchor="middle">{escape(mk.label)}</text>'
+        )
+    return parts
 
 
 def utilization_bars(names: list[str], values: list[float], svg_id: str) -> str:
@@ -147,7 +186,7 @@ def utilization_bars(names: list[str], values: list[float], svg_id: str) -> str:
                 f'class="{cls}"/>'
             )
             parts.append(
-                f'<text x="{float(fx(v)) + 4:.1f}" y="{y + 11}" class="tick">{v:.2f}</text>'
+                f'<text x="{float(fx(v)) + 4:.1f}" y="{y + 11}" class="tick">{number(v, 2)}</text>'
             )
         else:
             parts.append(f'<text x="{x0 + 4}" y="{y + 11}" class="tick">not critical</text>')

@@ -24,6 +24,7 @@ from flangewise.postproc.keyplan import (
     label_box,
     place_labels,
 )
+from flangewise.postproc.svg import LABEL_CHAR_PX, number
 
 CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
 FLAGS = [
@@ -222,3 +223,47 @@ def test_labels_overlap_neither_one_another_nor_the_drawing():
                 & (line[:, 1] < box[3])
             )
             assert not inside.any()
+
+
+def test_moment_labels_clear_of_one_another_and_node_ids_printed(tmp_path):
+    html, seg = _report("industrial_shed", tmp_path / "out")
+    text = html.read_text(encoding="utf-8")
+    row = _chosen_segment("industrial_shed", seg)
+    diagram = f'id="diagram-{row["segment"]}-{row["combination"]}"'.replace(" ", "_")
+    svg = text[text.index(diagram) :]
+    svg = svg[: svg.index("</svg>")]
+    labels = [
+        (float(x), float(y), t)
+        for x, y, t in re.findall(r'<text x="([\d.]+)" y="([\d.]+)" class="lab"[^>]*>([^<]+)<', svg)
+    ]
+    # The two end moments and the inside peak of the shed's governing segment.
+    assert len(labels) == 3 and any(t.startswith("inside peak") for _, _, t in labels)
+    boxes = [label_box(x, y, t, LABEL_CHAR_PX) for x, y, t in labels]
+    for i, a in enumerate(boxes):
+        for b in boxes[i + 1 :]:
+            assert not (a[0] < b[2] and b[0] < a[2] and a[1] < b[3] and b[1] < a[3]), labels
+    dots = [
+        (float(x), float(y)) for x, y in re.findall(r'<circle cx="([\d.]+)" cy="([\d.]+)"', svg)
+    ]
+    for box in boxes:
+        assert not any(box[0] < x < box[2] and box[1] < y < box[3] for x, y in dots)
+    # A node id under every brace point and member end of the member, printed (not on hover).
+    ids = re.findall(r'class="tick node" text-anchor="middle">([^<]+)<', svg)
+    assert ids == [f"C{i:02d}" for i in range(4, 13)]  # member M6 runs from C04 to C12
+
+
+@pytest.mark.parametrize("sample", sorted(CHOSEN))
+def test_no_negative_zero_in_the_report(sample, tmp_path):
+    html, _ = _report(sample, tmp_path / "out")
+    body = html.read_text(encoding="utf-8").split("<body>", 1)[1]
+    shown = re.sub(r"<[^>]+>", " ", body)  # the text a reader sees
+    assert not re.findall(r"(?<![\w.])[-−]0(?:\.0+)?(?![\d.])", shown)
+
+
+def test_numbers_never_print_a_negative_zero():
+    assert number(-0.04) == "0.0"
+    assert number(-0.0, 2) == "0.00"
+    assert number(-1.26) == "−1.3"
+    assert number(0.2, 0, sign=True) == "0"
+    assert number(207.2, 0, sign=True) == "+207"
+    assert number(-207.2, 0, sign=True) == "−207"
