@@ -64,6 +64,8 @@ SHORT_HASH = 12
 MAX_SECTIONS = 200
 #: At most this many members in the utilization chart (the highest first).
 MAX_BARS = 300
+#: At most this many pairs with informative flags only listed; the rest are counted.
+MAX_INFORMATIVE = 200
 #: At most this many members without forces named; the rest are counted.
 MAX_LISTED = 50
 
@@ -347,7 +349,9 @@ def _anchor(row: pd.Series) -> str:
 
 def _informative(r: pd.DataFrame, drawn: set[Any]) -> str:
     """Pairs whose only flags inform (no number of their check changed), in one table."""
-    flagged = r[(r["flags"].astype(str) != "") & ~r.index.isin(list(drawn))]
+    every = r[(r["flags"].astype(str) != "") & ~r.index.isin(list(drawn))]
+    flagged = every.head(MAX_INFORMATIVE)  # a large model's are counted, and all in flagged.csv
+    rest = len(every) - len(flagged)
     rows = "".join(
         f"<tr><td>{escape(str(g['segment']))}</td><td>{escape(str(g['combination']))}</td>"
         f"<td>{escape(str(g['flags']))}</td><td class='num'>{_maybe(g['factor'], 3)}</td>"
@@ -365,7 +369,9 @@ def _informative(r: pd.DataFrame, drawn: set[Any]) -> str:
         "<h2 id='informative'>Pairs with informative flags only</h2><div class='informative'>"
         f"<p class='meta'>Flags {escape(', '.join(INFORMATIVE))} change no number of the check; "
         "these pairs are neither governing nor flagged otherwise (flagged.csv has them all).</p>"
-        f"{listed}</div>"
+        f"{listed}"
+        + (f"<p class='meta'>{rest} more such pairs are in flagged.csv.</p>" if rest else "")
+        + "</div>"
     )
 
 

@@ -17,6 +17,8 @@ import numpy as np
 import pandas as pd
 import pytest
 from click.testing import CliRunner
+from flangewise.engine.check import check_model
+from flangewise.postproc import report
 from flangewise.postproc.cli import main, sample_path
 from flangewise.postproc.keyplan import (
     band_classes,
@@ -25,6 +27,7 @@ from flangewise.postproc.keyplan import (
     place_labels,
 )
 from flangewise.postproc.svg import LABEL_CHAR_PX, number
+from flangewise.readers.load import load_model
 
 CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
 FLAGS = [
@@ -267,3 +270,21 @@ def test_numbers_never_print_a_negative_zero():
     assert number(0.2, 0, sign=True) == "0"
     assert number(207.2, 0, sign=True) == "+207"
     assert number(-207.2, 0, sign=True) == "−207"
+
+
+def test_informative_pairs_beyond_the_limit_are_counted(monkeypatch):
+    model = load_model(sample_path("industrial_shed"), None)
+    result = check_model(model, model.settings.check)
+    monkeypatch.setattr(report, "MAX_INFORMATIVE", 3)
+    html = report.build_report(result, Path("industrial_shed"), "canonical layout")
+    table = html[html.index("id='informative'") : html.index("id='segments'")]
+    listed = table.count("<tr>") - 1  # less the heading row
+    assert listed == 3
+    more = int(re.search(r"(\d+) more such pairs are in flagged.csv", table).group(1))
+    drawn = re.findall(r"id='(seg-[^']+)'", html)
+    flagged = result.results[result.results["flags"].astype(str) != ""]
+    shown = {
+        f"seg-{s}-{c}".replace(" ", "_")
+        for s, c in zip(flagged["segment"], flagged["combination"], strict=True)
+    }
+    assert listed + more == len(shown - set(drawn))
