@@ -10,6 +10,7 @@ eigenvalue moves.
 from __future__ import annotations
 
 import math
+import re
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -130,7 +131,18 @@ def derivation(result: CheckResult, row: pd.Series, analysis: bool = False) -> l
                 [f"{name}: {FLAGS[name]}" for name in flags.split()],
             )
         )
-    return steps
+    return [
+        Step(st.title, st.clause, [no_negative_zero(line) for line in st.lines]) for st in steps
+    ]
+
+
+#: A number that prints as zero with a minus sign ("-0.00", "−0.0"): rounding of a tiny negative.
+_NEGATIVE_ZERO = re.compile(r"[-−](0(?:\.0+)?)(?![\d.])")
+
+
+def no_negative_zero(text: str) -> str:
+    """Drop the minus of every number that prints as zero ("-0.00 kN·m" → "0.00 kN·m")."""
+    return _NEGATIVE_ZERO.sub(r"\1", text)
 
 
 def _section_step(row: pd.Series, p: pd.Series) -> Step:

@@ -163,3 +163,14 @@ def test_no_axial_column_means_no_ratio_and_no_flag(tmp_path):
     seg = pd.read_csv(tmp_path / "r" / "segments.csv", encoding="utf-8-sig")
     assert seg["|N|/(A·fy)"].isna().all()
     assert not seg["flags"].fillna("").str.contains("axial-force").any()
+
+
+def test_explain_never_prints_a_negative_zero():
+    # A moment rounded to zero prints without a minus sign (common practice in calculations);
+    # a real negative number keeps it.
+    from flangewise.postproc.derivation import no_negative_zero
+
+    assert no_negative_zero("M at start = -0.00 kN·m, M at end = -12.50 kN·m") == (
+        "M at start = 0.00 kN·m, M at end = -12.50 kN·m"
+    )
+    assert no_negative_zero("κ = −0.0; x = -0.05 m") == "κ = 0.0; x = -0.05 m"
