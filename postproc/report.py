@@ -33,7 +33,7 @@ from flangewise.postproc.derivation import (
     no_exact_reason,
     source_words,
 )
-from flangewise.postproc.exports import CAUTION, LOAD_HEIGHT_WORDS, METHOD_WORDS
+from flangewise.postproc.exports import CAUTION, LOAD_HEIGHT_WORDS, METHOD_WORDS, worst_order
 from flangewise.postproc.keyplan import CSS as KEY_CSS
 from flangewise.postproc.keyplan import key_plan
 from flangewise.postproc.svg import Marker, moment_diagram, number, utilization_bars
@@ -262,12 +262,17 @@ def _drawn_pairs(r: pd.DataFrame, gov: pd.DataFrame) -> tuple[list[Any], dict[An
 
 
 def _governing(r: pd.DataFrame) -> pd.DataFrame:
-    """Each member's checked pair of highest utilization, highest first."""
+    """Each member's checked pair of highest utilization, worst first.
+
+    Ties go as everywhere else (:func:`flangewise.postproc.exports.worst_order`: members, then
+    segments in natural order, then combinations in model order), so the report's worst pair is
+    the one the terminal and summary.json name.
+    """
     checked = r[r["status"].isin(["ok", "over"])]
     if checked.empty:
         return checked
-    idx = checked.groupby("member", observed=True)["utilization"].idxmax()
-    return checked.loc[idx.to_numpy()].sort_values("utilization", ascending=False)
+    ordered = checked.iloc[worst_order(checked)]
+    return ordered[~ordered["member"].astype(str).duplicated()]
 
 
 def _header(

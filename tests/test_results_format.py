@@ -174,3 +174,24 @@ def test_explain_never_prints_a_negative_zero():
         "M at start = 0.00 kN·m, M at end = -12.50 kN·m"
     )
     assert no_negative_zero("κ = −0.0; x = -0.05 m") == "κ = 0.0; x = -0.05 m"
+
+
+def test_report_names_the_same_worst_pair_as_summary_json(tmp_path):
+    # The demo shed has two mirror members with equal utilization (M4 and M6): the stated
+    # tie-break (natural member order) must pick the same one in the report and summary.json.
+    import json
+    import re
+
+    from flangewise.postproc.cli import sample_path
+
+    out = tmp_path / "out"
+    result = CliRunner().invoke(
+        main, ["check", str(sample_path("industrial_shed")), "--out", str(out), "--report"]
+    )
+    assert result.exit_code == 0, result.output
+    worst = json.loads((out / "summary.json").read_text(encoding="utf-8"))["worst"]
+    html = (out / "report.html").read_text(encoding="utf-8")
+    table = html[html.index("Members nearest failure") :]
+    first = re.search(r"<td>(M\d+)</td>\s*<td>([^<]+)</td>", table)
+    assert first is not None
+    assert (first.group(1), first.group(2)) == (worst["member"], worst["segment"])
