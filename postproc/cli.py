@@ -55,13 +55,8 @@ DEBUG_VARIABLE = "FLANGEWISE_DEBUG"
 #: Where click keeps the command line's arguments for the run's record.
 _ARGUMENTS = "flangewise.arguments"
 
-EXIT_HELP = """\b
-Exit status:
-  0  done; for check and demo: every pair is shown to pass
-  1  check, demo: NOT SHOWN TO PASS: a checked pair is over 1.0, a pair
-     with its flange in compression is not checked (class 4), or nothing
-     at all was checked (--exit-zero makes this 0)
-  2  input that cannot be used, or a command line that cannot be parsed
+#: The statuses every command shares (the help of the group and of check, demo).
+_COMMON_EXIT_LINES = """  2  input that cannot be used, or a command line that cannot be parsed
   3  the results could not be written (earlier results are left as they
      were)
   4  an internal error of flangewise: not a result; please report it with
@@ -71,21 +66,27 @@ Exit status:
   141  the program reading the output closed it early (a pipe)
 """
 
-CHECK_EXIT_HELP = """\b
+EXIT_HELP = (
+    """\b
+Exit status:
+  0  done; for check and demo: every pair is shown to pass
+  1  check, demo: NOT SHOWN TO PASS: a checked pair is over 1.0, a pair
+     with its flange in compression is not checked (class 4), or nothing
+     at all was checked (--exit-zero makes this 0)
+"""
+    + _COMMON_EXIT_LINES
+)
+
+CHECK_EXIT_HELP = (
+    """\b
 Exit status:
   0  every pair is shown to pass
   1  NOT SHOWN TO PASS: a checked pair is over 1.0, a pair with its flange
      in compression is not checked (class 4), or nothing at all was
      checked (unless --exit-zero)
-  2  input that cannot be used (or a command line that cannot be parsed)
-  3  the results could not be written (earlier results are left as they
-     were)
-  4  an internal error of flangewise: not a result; please report it with
-     the command line and the input files (--debug or FLANGEWISE_DEBUG=1
-     shows the traceback)
-  130  interrupted (Ctrl-C)
-  141  the program reading the output closed it early (a pipe)
 """
+    + _COMMON_EXIT_LINES
+)
 
 
 class ResultsNotWritten(Exception):

@@ -66,7 +66,7 @@ def spreadsheet_rows(index: pd.Index | np.ndarray) -> np.ndarray:
 
 
 def read_table(settings: Settings, table: str, problems: ProblemList) -> pd.DataFrame | None:
-    """Read one table into our column names, or record why it cannot be read.
+    """Read one table into our column names, or note in ``problems`` why it cannot be read.
 
     Identifier columns come back as text (object dtype; categories for the forces table),
     stripped of surrounding blanks, empty cells missing. Numeric columns come back as float64,
@@ -128,7 +128,7 @@ def _read(
 def _map_columns(
     settings: Settings, table: str, header: list[str], problems: ProblemList
 ) -> dict[int, str] | None:
-    """Return {position of the file column: our column}, or ``None`` after recording why not.
+    """Return {position of the file column: our column}, or ``None`` once the reason is noted.
 
     Names are compared without surrounding blanks. A mapped name the header holds twice is a
     problem (which one is meant?); unmapped columns may repeat.
@@ -175,7 +175,7 @@ def _frame(
     name: str,
     problems: ProblemList,
 ) -> pd.DataFrame | None:
-    """Turn the parsed columns into our table; ``None`` after recording empty rows."""
+    """Turn the parsed columns into our table; ``None`` once empty rows are noted."""
     position = {ours: i for i, ours in mapped.items()}
     order = [ours for ours, _ in COLUMNS[table] if ours in position]
     columns: dict[str, Any] = {}
@@ -233,7 +233,7 @@ def _frame(
 def _rows_with_values(
     empties: dict[str, Any], rows: int, name: str, problems: ProblemList
 ) -> int | None:
-    """Return how many rows to keep, or ``None`` after recording empty rows inside the table.
+    """Return how many rows to keep, or ``None`` once empty rows inside the table are noted.
 
     Empty rows at the end are dropped.
     ``empties`` holds per column either an Arrow column (empty = missing) or a boolean array.

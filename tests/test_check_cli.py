@@ -90,13 +90,8 @@ def test_filters_by_member_and_combination(tmp_path):
 FILES = [*exports.RESULT_FILES, "report.html"]
 
 
-@pytest.mark.parametrize("fail_at", ["segments.csv", "flagged.csv", "report.html", "summary.json"])
-def test_failure_while_writing_leaves_earlier_results_intact(tmp_path, monkeypatch, fail_at):
-    out = tmp_path / "res"
-    first = CliRunner().invoke(main, ["check", str(SAMPLE), "--out", str(out), "--report"])
-    assert first.exit_code == 0, first.output
-    before = {name: (out / name).read_bytes() for name in FILES}
-
+def _fail_writing_at(monkeypatch, fail_at: str) -> None:
+    """Make the results writer fail just before it puts ``fail_at`` in place."""
     real = exports.write_results
 
     def failing(out_dir, tables, info, before_replace=None, texts=None):
@@ -107,6 +102,16 @@ def test_failure_while_writing_leaves_earlier_results_intact(tmp_path, monkeypat
         return real(out_dir, tables, info, before_replace=boom, texts=texts)
 
     monkeypatch.setattr(exports, "write_results", failing)
+
+
+@pytest.mark.parametrize("fail_at", ["segments.csv", "flagged.csv", "report.html", "summary.json"])
+def test_failure_while_writing_leaves_earlier_results_intact(tmp_path, monkeypatch, fail_at):
+    out = tmp_path / "res"
+    first = CliRunner().invoke(main, ["check", str(SAMPLE), "--out", str(out), "--report"])
+    assert first.exit_code == 0, first.output
+    before = {name: (out / name).read_bytes() for name in FILES}
+
+    _fail_writing_at(monkeypatch, fail_at)
     second = CliRunner().invoke(
         main, ["check", str(SAMPLE), "--out", str(out), "--method", "cb", "--report"]
     )
@@ -288,16 +293,7 @@ def test_a_failed_rerun_keeps_the_earlier_report_too(tmp_path, monkeypatch, fail
     assert first.exit_code == 0, first.output
     before = {p.name: p.read_bytes() for p in out.iterdir()}
 
-    real = exports.write_results
-
-    def failing(out_dir, tables, info, before_replace=None, texts=None):
-        def boom(name):
-            if name == fail_at:
-                raise OSError("disk full (injected)")
-
-        return real(out_dir, tables, info, before_replace=boom, texts=texts)
-
-    monkeypatch.setattr(exports, "write_results", failing)
+    _fail_writing_at(monkeypatch, fail_at)
     # Without --report: report.html is not this run's, so the run removes it, unless it fails.
     second = CliRunner().invoke(main, ["check", str(SAMPLE), "--out", str(out), "--method", "cb"])
     assert second.exit_code == 3, second.output

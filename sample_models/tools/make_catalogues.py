@@ -33,7 +33,7 @@ from flangewise.engine.sections import section_properties
 from pandas.compat import pickle_compat
 
 #: Largest relative difference between a tabulated and a plate-computed A, Ix, Iy, Sx or Zx
-#: before a row is taken as a transcription error (common practice: rolled shapes' fillets
+#: before a row is taken as a copying error (common practice: rolled shapes' fillets
 #: and rounding of the tabulated plates move these by well under 3 %).
 TOLERANCE = 0.03
 

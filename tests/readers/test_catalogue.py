@@ -113,7 +113,7 @@ def test_every_shipped_row_agrees_with_its_own_plates(name):
     assert bad == {c: [] for c in ("A", "Ix", "Iy", "Sx", "Zx")}
 
 
-def test_the_plate_check_catches_a_transcription_error():
+def test_the_plate_check_catches_a_copying_error():
     # Not blind: Zx 7.5 % high (a kind of error seen in published tables) is caught.
     df = pd.read_csv(FOLDER / "cisc_w_metric.csv", comment="#")
     df.loc[df["name"] == "W410x60", "Zx"] *= 1.075
