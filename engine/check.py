@@ -20,8 +20,10 @@ from flangewise.engine.segments import FLANGES
 from flangewise.readers.model import Model
 from flangewise.readers.settings import CheckSettings
 
-#: Result states, in code order.
-STATUS = ["ok", "over", "not critical", "not checked"]
+#: Result states, in code order.  "verify length": a checked cantilever pair at or below 1.0, whose
+#: result stands only once the engineer has verified its effective length (the tool takes the
+#: actual length, and the effective length of a cantilever depends on its root and tip restraint).
+STATUS = ["ok", "over", "not critical", "not checked", "verify length"]
 
 #: Column holding each method's factor in the results.
 METHOD_COLUMN = {
@@ -141,9 +143,8 @@ def check_pairs(layout: Layout, props: pd.DataFrame, settings: CheckSettings) ->
     limited to the exact factor where flagged ``code-factor-high`` and ``limit_to_exact`` is on),
     ``Mcr``, ``M_base`` (Mp for class 1-2, My for class 3), ``Mr``, ``Mr_exact``, ``demand``,
     ``utilization``, ``utilization_exact``, ``axial_share`` (largest |N| of the run ÷ A·fy; NaN
-    without an N column),
-    ``status`` ("ok", "over", "not critical", "not checked"), ``flags`` and one boolean column
-    per flag name (``flag_<name>``).
+    without an N column), ``status`` ("ok", "over", "not critical", "not checked", "verify
+    length"), ``flags`` and one boolean column per flag name (``flag_<name>``).
     """
     seg = layout.segments.table
     diag = layout.diagrams
@@ -231,7 +232,9 @@ def check_pairs(layout: Layout, props: pd.DataFrame, settings: CheckSettings) ->
         utilization = np.where(checked, demand / mr, np.nan)
         utilization_exact = np.where(checked, demand / mr_exact, np.nan)
     status_code = np.where(
-        ~compressed, 2, np.where(class4, 3, np.where(utilization > 1.0, 1, 0))
+        ~compressed,
+        2,
+        np.where(class4, 3, np.where(utilization > 1.0, 1, np.where(cantilever, 4, 0))),
     ).astype(np.int8)
     status = pd.Categorical.from_codes(status_code, categories=pd.Index(STATUS))
     flags = {

@@ -45,7 +45,7 @@ METHOD_WORDS = {
 }
 
 #: Status words of the pairs whose utilization was worked out.
-CHECKED = ("ok", "over")
+CHECKED = ("ok", "over", "verify length")
 
 #: How the worst pair (and each member's governing pair) is chosen among equals.
 WORST_RULE = (
@@ -270,6 +270,9 @@ def summary(
         "pairs not critical": int(_status_in(segments, "not critical").sum()),
         "pairs not checked (class 4)": int(_status_in(segments, "not checked").sum()),
         "pairs over 1.0": int(_status_in(segments, "over").sum()),
+        "pairs to verify (cantilever effective length)": int(
+            _status_in(segments, "verify length").sum()
+        ),
         "pairs without a finite utilization": int(
             (~np.isfinite(checked["utilization"].to_numpy(dtype=np.float64))).sum()
         ),
@@ -311,7 +314,7 @@ def exact_counts(checked: pd.DataFrame) -> dict[str, Any]:
     """How many checked pairs have an exact factor, and why the others have none.
 
     Args:
-        checked: the checked rows of the segment table (status "ok" or "over").
+        checked: the checked rows of the segment table (status in :data:`CHECKED`).
     """
     has = np.isfinite(checked["exact factor"].to_numpy(dtype=np.float64))
     # Count the few distinct notes of the rows without (a categorical: no string per row).
@@ -326,13 +329,20 @@ def outcome(counts: dict[str, int]) -> dict[str, Any]:
     """Whether the run shows every pair to pass, and if not, why not.
 
     A run is *shown to pass* only when something was checked and nothing stands against it: no
-    checked pair over 1.0, no pair with its flange in compression left unchecked (class 4), and
-    no checked pair without a finite utilization. Anything else is *not shown to pass* (exit
+    checked pair over 1.0, no cantilever pair whose effective length is still to be verified, no
+    pair with its flange in compression left unchecked (class 4), and no checked pair without a
+    finite utilization. Anything else is *not shown to pass* (exit
     status 1): a run that checked nothing has shown nothing.
     """
     reasons = []
     if counts["pairs over 1.0"]:
         reasons.append(f"{counts['pairs over 1.0']} pair(s) over 1.0")
+    if counts["pairs to verify (cantilever effective length)"]:
+        reasons.append(
+            f"{counts['pairs to verify (cantilever effective length)']} cantilever pair(s) at or "
+            "below 1.0 with the actual length taken as the effective length: verify it (status "
+            "'verify length')"
+        )
     if counts["pairs not checked (class 4)"]:
         reasons.append(
             f"{counts['pairs not checked (class 4)']} pair(s) with the flange in compression "
@@ -392,6 +402,11 @@ def summary_text(info: dict[str, Any]) -> str:
             f" and {len(missing) - 10} more" if len(missing) > 10 else ""
         )
         lines.append(f"NO FORCES      : {len(missing)} member(s) not checked: {shown}")
+    if info["pairs to verify (cantilever effective length)"]:
+        lines.append(
+            f"VERIFY LENGTH  : {info['pairs to verify (cantilever effective length)']} cantilever "
+            "pair(s): the actual length was taken as the effective length"
+        )
     if info["pairs not checked (class 4)"]:
         lines.append(f"NOT CHECKED    : {info['pairs not checked (class 4)']} (class 4 sections)")
     flagged = {k: v for k, v in info["flags"].items() if v}

@@ -33,7 +33,13 @@ from flangewise.postproc.derivation import (
     no_exact_reason,
     source_words,
 )
-from flangewise.postproc.exports import CAUTION, LOAD_HEIGHT_WORDS, METHOD_WORDS, worst_order
+from flangewise.postproc.exports import (
+    CAUTION,
+    CHECKED,
+    LOAD_HEIGHT_WORDS,
+    METHOD_WORDS,
+    worst_order,
+)
 from flangewise.postproc.keyplan import CSS as KEY_CSS
 from flangewise.postproc.keyplan import key_plan
 from flangewise.postproc.svg import Marker, moment_diagram, number, utilization_bars
@@ -268,7 +274,7 @@ def _governing(r: pd.DataFrame) -> pd.DataFrame:
     segments in natural order, then combinations in model order), so the report's worst pair is
     the one the terminal and summary.json name.
     """
-    checked = r[r["status"].isin(["ok", "over"])]
+    checked = r[r["status"].isin(list(CHECKED))]
     if checked.empty:
         return checked
     ordered = checked.iloc[worst_order(checked)]
@@ -401,7 +407,7 @@ def _overview(
         ("members", r["member"].nunique()),
         ("unbraced segments", r["segment"].nunique()),
         ("load combinations", r["combination"].nunique()),
-        ("segment × combination pairs checked", int(status.isin(["ok", "over"]).sum())),
+        ("segment × combination pairs checked", int(status.isin(list(CHECKED)).sum())),
         (
             "pairs not critical (flange nowhere in compression)",
             int((status == "not critical").sum()),
@@ -409,8 +415,13 @@ def _overview(
         ("pairs NOT CHECKED (class 4)", int((status == "not checked").sum())),
         ("pairs over 1.0", int((status == "over").sum())),
         (
+            "cantilever pairs at or below 1.0 to verify (status 'verify length': the actual "
+            "length was taken as the effective length)",
+            int((status == "verify length").sum()),
+        ),
+        (
             "checked pairs with an exact factor",
-            int((status.isin(["ok", "over"]) & np.isfinite(r["exact_factor"])).sum()),
+            int((status.isin(list(CHECKED)) & np.isfinite(r["exact_factor"])).sum()),
         ),
         (
             f"pairs whose code factor is more than {EXACT_MARGIN * 100:.0f} % above the exact "

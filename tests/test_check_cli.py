@@ -259,7 +259,7 @@ def test_member_filter_narrows_every_output(tmp_path):
     # The summary counts the filtered table, not the whole model (which differs).
     assert info["flags"] == _flag_counts(seg)
     assert info["flags"] != _info(tmp_path / "all")["flags"]
-    assert info["pairs checked"] == int(seg["status"].isin(["ok", "over"]).sum())
+    assert info["pairs checked"] == int(seg["status"].isin(list(exports.CHECKED)).sum())
     assert info["pairs not critical"] == int((seg["status"] == "not critical").sum())
     assert info["members"] == 1
     assert info["members without forces (not checked)"] == []

@@ -33,6 +33,7 @@ import numpy as np
 import pandas as pd
 import pytest
 from click.testing import CliRunner
+from flangewise.postproc import exports
 from flangewise.postproc.cli import main, sample_path
 
 SHED = sample_path("industrial_shed")
@@ -76,7 +77,7 @@ def shed(tmp_path_factory) -> tuple[str, pd.DataFrame, dict, Path]:
 
 
 def _checked(seg: pd.DataFrame) -> pd.DataFrame:
-    return seg[seg["status"].isin(["ok", "over"])]
+    return seg[seg["status"].isin(list(exports.CHECKED))]
 
 
 def _plates(sections: pd.DataFrame) -> pd.DataFrame:

@@ -123,7 +123,9 @@ def test_a_foreign_layout_records_its_own_files_and_a_settings_file_elsewhere(tm
     outside = tmp_path / "settings" / "platform.toml"
     outside.parent.mkdir()
     shutil.move(folder / "flangewise.toml", outside)
-    record = _check(str(folder), "--settings", str(outside), "--out", str(tmp_path / "res"))
+    # --exit-zero: the platform is not shown to pass (cantilever tips to verify); its record is.
+    out = str(tmp_path / "res")
+    record = _check(str(folder), "--settings", str(outside), "--out", out, "--exit-zero")
     assert record["settings file"]["path"] == "../settings/platform.toml"
     assert record["settings file"]["text"] == outside.read_text(encoding="utf-8")
     paths = {f["path"] for f in record["inputs"]}

@@ -64,7 +64,8 @@ def _report(sample: str, out: Path) -> tuple[Path, pd.DataFrame]:
     result = CliRunner().invoke(
         main, ["check", str(sample_path(sample)), "--out", str(out), "--report"]
     )
-    assert result.exit_code == 0, result.output
+    # The platform's cantilever tips are "verify length": not shown to pass, status 1.
+    assert result.exit_code == (1 if sample == "plant_platform" else 0), result.output
     seg = pd.read_csv(out / "segments.csv", dtype={"from node": str, "to node": str})
     return out / "report.html", seg
 

@@ -18,6 +18,7 @@ import numpy as np
 import pytest
 from click.testing import CliRunner
 from flangewise.engine.check import check_model
+from flangewise.postproc import exports
 from flangewise.postproc.cli import main, sample_path
 from flangewise.readers.load import load_model
 
@@ -109,7 +110,7 @@ def test_every_governing_and_result_changing_pair_is_drawn_or_named(printed):
     html, _, _ = printed
     model = load_model(sample_path("industrial_shed"), None)
     r = check_model(model, model.settings.check).results
-    checked = r[r["status"].isin(["ok", "over"])]
+    checked = r[r["status"].isin(list(exports.CHECKED))]
     governing = checked.groupby("member", observed=True)["utilization"].idxmax().to_numpy()
     changing = np.logical_or.reduce([r[f"flag_{n}"].to_numpy() for n in CHANGING])
     wanted = r.loc[sorted({*governing, *r.index[changing]})]

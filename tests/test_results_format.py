@@ -121,7 +121,7 @@ def test_signed_moments_say_their_sign_in_the_header(tmp_path):
     )
     # A checked pair's demand is the larger of its compressing moments: a signed end moment above
     # it would contradict the stated sign.
-    checked = seg[seg["status"].isin(["ok", "over"])]
+    checked = seg[seg["status"].isin(list(exports.CHECKED))]
     assert (checked[signed] <= checked["demand [kN·m]"] + 1e-6).all()
 
 
@@ -147,7 +147,7 @@ def test_axial_force_above_five_percent_of_squash_load_is_flagged(tmp_path):
     seg = pd.read_csv(tmp_path / "b" / "segments.csv", encoding="utf-8-sig")
     # |N|/(A·fy) is linear in N (common practice: the squash load A·fy does not depend on N).
     np.testing.assert_allclose(seg["|N|/(A·fy)"], 5.0 * ratio, rtol=1e-4)
-    checked = seg["status"].isin(["ok", "over"])
+    checked = seg["status"].isin(list(exports.CHECKED))
     flagged = seg["flags"].fillna("").str.contains("axial-force")
     assert flagged.any() and (~flagged).any()
     assert (flagged == (checked & (seg["|N|/(A·fy)"] > 0.05))).all()
