@@ -169,6 +169,8 @@ class Settings:
         flange_words: per flange word of ours, the extra words that mean it in the braces file.
         members: member chaining and bracing settings (``[members]``).
         check: material constants, φ and the gradient method (``[check]``).
+        output_units: the unit system of every output, "si" or "us" (``[output] units``);
+            ``None`` for the system of the input units.
     """
 
     folder: Path
@@ -196,6 +198,7 @@ class Settings:
     )
     members: MemberSettings = field(default_factory=MemberSettings)
     check: CheckSettings = field(default_factory=CheckSettings)
+    output_units: Literal["si", "us"] | None = None
 
     def path(self, table: str) -> Path:
         """Return the path of a table's file."""
@@ -248,7 +251,17 @@ def read_settings(folder: Path | str, settings_file: Path | str | None = None) -
 def _settings_from_dict(folder: Path, path: Path, data: dict[str, Any]) -> Settings:
     name = str(path)
     problems: list[Problem] = []
-    known = {"files", "columns", "csv", "units", "forces", "geometry", "material", "flange_words"}
+    known = {
+        "files",
+        "columns",
+        "csv",
+        "units",
+        "forces",
+        "geometry",
+        "material",
+        "flange_words",
+        "output",
+    }
     for key in data:
         if key not in known | set(_ENGINE_SECTIONS):
             _expect(problems, name, key, key, f"one of the tables {sorted(known)}")
@@ -369,6 +382,7 @@ def _settings_from_dict(folder: Path, path: Path, data: dict[str, Any]) -> Setti
 
     members = _member_settings(name, table("members"), problems)
     check = _check_settings(name, table("check"), problems)
+    output_units = _output_units(name, table("output"), problems)
 
     if problems:
         raise InputError(problems)
@@ -390,7 +404,38 @@ def _settings_from_dict(folder: Path, path: Path, data: dict[str, Any]) -> Setti
         flange_words=MappingProxyType(flange_words),
         members=members,
         check=check,
+        output_units=output_units,
     )
+
+
+#: Unit systems of the outputs (``[output] units``).
+OUTPUT_UNITS: tuple[str, ...] = ("si", "us")
+
+
+def _output_units(
+    name: str, given: dict[str, Any], problems: list[Problem]
+) -> Literal["si", "us"] | None:
+    """Read ``[output]``: ``units`` is "si" or "us" (any case); absent means the input's system."""
+    for key in given:
+        if key != "units":
+            _expect(problems, name, f"output.{key}", key, "one of ['units']")
+    if "units" not in given:
+        return None
+    value = given["units"]
+    text = value.strip().lower() if isinstance(value, str) else None
+    if text == "si":
+        return "si"
+    if text == "us":
+        return "us"
+    _expect(
+        problems,
+        name,
+        "output.units",
+        value,
+        "'si' (m, mm, kN, kN·m, MPa) or 'us' (ft, in, kip, kip·ft, ksi); leave it out for the "
+        "system of the input units",
+    )
+    return None
 
 
 def _one_file_column_each(
