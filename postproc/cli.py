@@ -33,6 +33,7 @@ from flangewise.postproc.provenance import (
     start_hashing,
 )
 from flangewise.postproc.report import build_report
+from flangewise.postproc.shown_units import SYSTEMS, ShownUnits, shown_units
 from flangewise.postproc.summary import model_summary
 from flangewise.readers import InputError, Model, load_model, read_settings
 from flangewise.readers.settings import GRADIENT_METHODS
@@ -211,6 +212,20 @@ method_option = click.option(
 )
 
 
+units_option = click.option(
+    "--units",
+    "units_choice",
+    type=click.Choice(list(SYSTEMS), case_sensitive=False),
+    help="Units of every output: si (m, mm, kN, kN·m, MPa) or us (ft, in, kip, kip·ft, ksi). "
+    "Default: the settings file's [output] units, else the system of the input's moment unit.",
+)
+
+
+def _units(model: Model, choice: str | None) -> ShownUnits:
+    """The run's output units: the command line's, else the settings file's, else the input's."""
+    return shown_units((choice or "").lower() or model.settings.output_units, model.settings.units)
+
+
 def sample_path(name: str) -> Path:
     """Return the folder of a bundled sample model."""
     return Path(str(files("flangewise.sample_models").joinpath(name)))
@@ -235,7 +250,8 @@ def main(debug: bool) -> None:
 @main.command()
 @model_argument
 @settings_option
-def summary(model: Path, settings_file: Path | None) -> None:
+@units_option
+def summary(model: Path, settings_file: Path | None, units_choice: str | None) -> None:
     """Load MODEL (a folder of CSV files), validate it and summarise what was read.
 
     It validates exactly what 'check' does (members and segments included): input that check
@@ -243,7 +259,7 @@ def summary(model: Path, settings_file: Path | None) -> None:
     """
     loaded = load_model(model, settings_file)
     layout = build_layout(loaded)
-    click.echo(model_summary(loaded, layout))
+    click.echo(model_summary(loaded, layout, _units(loaded, units_choice)))
     click.echo(CAUTION)
 
 
@@ -256,7 +272,10 @@ def summary(model: Path, settings_file: Path | None) -> None:
     type=click.Path(dir_okay=False, path_type=Path),
     help="Also write one row per segment to this CSV file.",
 )
-def members(model: Path, settings_file: Path | None, csv_file: Path | None) -> None:
+@units_option
+def members(
+    model: Path, settings_file: Path | None, csv_file: Path | None, units_choice: str | None
+) -> None:
     """Show how MODEL's elements chain into members and where each flange is braced.
 
     For every member: its elements in order, length, section, the braced nodes of each flange,
@@ -265,9 +284,10 @@ def members(model: Path, settings_file: Path | None, csv_file: Path | None) -> N
     """
     loaded = load_model(model, settings_file)
     layout = build_layout(loaded)
-    click.echo(members_text(layout.members, layout.segments, layout.diagrams))
+    units = _units(loaded, units_choice)
+    click.echo(members_text(layout.members, layout.segments, layout.diagrams, units))
     if csv_file is not None:
-        rows = segment_rows(layout.members, layout.segments, layout.diagrams)
+        rows = segment_rows(layout.members, layout.segments, layout.diagrams, units)
         with _writing():
             write_atomic(csv_file, lambda fh: rows.to_csv(fh, index=False, float_format="%.4f"))
         click.echo(f"Segments written to {csv_file}")
@@ -285,6 +305,7 @@ class _Run:
     combinations: tuple[str, ...] = ()
     method: str | None = None
     report: bool = False
+    units: str | None = None
 
 
 def _load_and_hash(run: _Run) -> tuple[Model, list[InputFile]]:
@@ -339,9 +360,10 @@ def _run_check(run: _Run) -> dict[str, Any]:
             # Narrow the results themselves, so that every output describes the same set.
             scope = _members_of_run(result, run.members)
             result = exports.select_members(result, scope)
-        seg = exports.segment_table(result)
+        units = _units(loaded, run.units)
+        seg = exports.segment_table(result, units)
         next(it, None)
-        info = exports.summary(result, seg, run.model, members=scope)
+        info = exports.summary(result, seg, run.model, members=scope, units=units)
         filters = {
             "member": list(run.members),
             "combination": list(run.combinations),
@@ -413,6 +435,7 @@ class _Null:
     "--combination", "combinations", multiple=True, help="Only this load combination (repeat)."
 )
 @method_option
+@units_option
 @click.option(
     "--report",
     is_flag=True,
@@ -431,6 +454,7 @@ def check(
     members_wanted: tuple[str, ...],
     combinations: tuple[str, ...],
     method: str | None,
+    units_choice: str | None,
     report: bool,
     exit_zero: bool,
 ) -> None:
@@ -443,7 +467,9 @@ def check(
     results were made: tool version, settings, filters, command line and a sha256 of every input
     file. The output folder ends up holding exactly this run's result files.
     """
-    run = _Run(model, settings_file, out, members_wanted, combinations, method, report)
+    run = _Run(
+        model, settings_file, out, members_wanted, combinations, method, report, units_choice
+    )
     info = _run_check(run)
     if not info["result"]["shown to pass"] and not exit_zero:
         sys.exit(EXIT_NOT_SHOWN_TO_PASS)
@@ -455,8 +481,14 @@ def check(
 @click.argument("combination")
 @settings_option
 @method_option
+@units_option
 def explain(
-    model: Path, segment: str, combination: str, settings_file: Path | None, method: str | None
+    model: Path,
+    segment: str,
+    combination: str,
+    settings_file: Path | None,
+    method: str | None,
+    units_choice: str | None,
 ) -> None:
     """Show the check of one SEGMENT in one load COMBINATION of MODEL, step by step.
 
@@ -471,7 +503,7 @@ def explain(
         row = find_pair(result, segment, combination)
     except UnknownName as exc:
         _bad_parameter(exc.param, exc.message)
-    click.echo(derivation_text(result, row))
+    click.echo(derivation_text(result, row, units=_units(loaded, units_choice)))
     click.echo(CAUTION)
 
 

@@ -19,14 +19,12 @@ import pyarrow as pa
 import pyarrow.csv as pacsv
 from flangewise.engine.check import EXACT_MARGIN, CheckResult
 from flangewise.engine.flags import FLAGS
+from flangewise.postproc.shown_units import BY_SYSTEM, SI, ShownUnits
 
 CAUTION = (
     "CAUTION: results are an aid to design, not a design. They must be verified by a competent "
     "engineer; the local design code and licensed practice govern."
 )
-
-KNM = 1.0e6  # N·mm per kN·m
-M = 1.0e3  # mm per m
 
 #: Result files written by a check, in the order they are written.
 RESULT_FILES = ("segments.csv", "governing.csv", "flagged.csv", "summary.json")
@@ -56,8 +54,20 @@ WORST_RULE = (
 #: Signed end moments: the header says which sign is which (the segment's own flange; an
 #: "either" segment of a steep member keeps the model's sign, + compressing the top flange).
 SIGN = "+ compresses segment's flange, top if either"
-M_START = f"M start [kN·m, {SIGN}]"
-M_END = f"M end [kN·m, {SIGN}]"
+
+
+def m_start_header(units: ShownUnits) -> str:
+    """The signed start moment's header: its unit and which sign is which."""
+    return f"M start [{units.moment}, {SIGN}]"
+
+
+def m_end_header(units: ShownUnits) -> str:
+    """The signed end moment's header: its unit and which sign is which."""
+    return f"M end [{units.moment}, {SIGN}]"
+
+
+M_START = m_start_header(SI)
+M_END = m_end_header(SI)
 
 #: The axial force column's header: the largest |N| of the pair ÷ the squash load.
 AXIAL = "|N|/(A·fy)"
@@ -66,13 +76,18 @@ AXIAL = "|N|/(A·fy)"
 DEPARTURE = "departure from line [share of |M| max]"
 
 
-def segment_table(result: CheckResult) -> pd.DataFrame:
-    """Every (segment, combination) pair with all the numbers, in engineer's units."""
+def segment_table(result: CheckResult, units: ShownUnits = SI) -> pd.DataFrame:
+    """Every (segment, combination) pair with all the numbers, in ``units``.
+
+    Every header carries its unit (``Mr [kip·ft]``); dimensionless columns carry none.
+    """
     r = result.results
     k = r["segment_row"].to_numpy()
     table = result.layout.segments.table
     nodes = pd.Categorical(table["node_start"].to_numpy())
     nodes_end = pd.Categorical(table["node_end"].to_numpy())
+    per_m, per_l = units.moment_nmm, units.length_mm  # internal units per shown unit
+    lu, mu = units.length, units.moment  # unit names in the headers
     return pd.DataFrame(
         {
             "member": r["member"].array,
@@ -83,19 +98,21 @@ def segment_table(result: CheckResult) -> pd.DataFrame:
             "class": r["section_class"].to_numpy(),
             "from node": pd.Categorical.from_codes(nodes.codes[k], nodes.categories),
             "to node": pd.Categorical.from_codes(nodes_end.codes[k], nodes_end.categories),
-            "start [m]": table["s_start"].to_numpy()[k] / M,
-            "end [m]": table["s_end"].to_numpy()[k] / M,
-            "Lu [m]": r["length"].to_numpy() / M,
-            M_START: r["M_start"].to_numpy() / KNM + 0.0,
-            M_END: r["M_end"].to_numpy() / KNM + 0.0,
-            "|M| max [kN·m]": r["M_max"].to_numpy() / KNM,
-            "|M| larger end [kN·m]": np.maximum(np.abs(r["M_start"]), np.abs(r["M_end"])).to_numpy()
-            / KNM,
-            "|M| inside peak [kN·m]": r["inside_peak"].to_numpy() / KNM,
-            "inside peak at [m]": r["inside_peak_at"].to_numpy() / M,
-            "|M| L/4 [kN·m]": r["M_a"].to_numpy() / KNM,
-            "|M| L/2 [kN·m]": r["M_b"].to_numpy() / KNM,
-            "|M| 3L/4 [kN·m]": r["M_c"].to_numpy() / KNM,
+            f"start [{lu}]": table["s_start"].to_numpy()[k] / per_l,
+            f"end [{lu}]": table["s_end"].to_numpy()[k] / per_l,
+            f"Lu [{lu}]": r["length"].to_numpy() / per_l,
+            m_start_header(units): r["M_start"].to_numpy() / per_m + 0.0,
+            m_end_header(units): r["M_end"].to_numpy() / per_m + 0.0,
+            f"|M| max [{mu}]": r["M_max"].to_numpy() / per_m,
+            f"|M| larger end [{mu}]": np.maximum(
+                np.abs(r["M_start"]), np.abs(r["M_end"])
+            ).to_numpy()
+            / per_m,
+            f"|M| inside peak [{mu}]": r["inside_peak"].to_numpy() / per_m,
+            f"inside peak at [{lu}]": r["inside_peak_at"].to_numpy() / per_l,
+            f"|M| L/4 [{mu}]": r["M_a"].to_numpy() / per_m,
+            f"|M| L/2 [{mu}]": r["M_b"].to_numpy() / per_m,
+            f"|M| 3L/4 [{mu}]": r["M_c"].to_numpy() / per_m,
             "κ": r["kappa"].to_numpy(),
             "ω2 end-moment": r["omega2_end"].to_numpy(),
             "ω2 quarter-point": r["omega2_qp"].to_numpy(),
@@ -108,12 +125,12 @@ def segment_table(result: CheckResult) -> pd.DataFrame:
             "basis": r["method"].array,
             "factor basis": r["factor_basis"].to_numpy(),
             "factor used": r["factor"].to_numpy(),
-            "Mcr [kN·m]": r["Mcr"].to_numpy() / KNM,
-            "Mcr exact [kN·m]": r["Mcr_exact"].to_numpy() / KNM,
-            "Mp or My [kN·m]": r["M_base"].to_numpy() / KNM,
-            "Mr [kN·m]": r["Mr"].to_numpy() / KNM,
-            "Mr exact [kN·m]": r["Mr_exact"].to_numpy() / KNM,
-            "demand [kN·m]": r["demand"].to_numpy() / KNM,
+            f"Mcr [{mu}]": r["Mcr"].to_numpy() / per_m,
+            f"Mcr exact [{mu}]": r["Mcr_exact"].to_numpy() / per_m,
+            f"Mp or My [{mu}]": r["M_base"].to_numpy() / per_m,
+            f"Mr [{mu}]": r["Mr"].to_numpy() / per_m,
+            f"Mr exact [{mu}]": r["Mr_exact"].to_numpy() / per_m,
+            f"demand [{mu}]": r["demand"].to_numpy() / per_m,
             AXIAL: r["axial_share"].to_numpy(),
             "utilization": r["utilization"].to_numpy(),
             "utilization exact": r["utilization_exact"].to_numpy(),
@@ -235,6 +252,7 @@ def summary(
     segments: pd.DataFrame,
     model_folder: Path,
     members: Sequence[str] | None = None,
+    units: ShownUnits = SI,
 ) -> dict[str, Any]:
     """Counts, the worst result, the flags and the outcome, as a JSON-ready dict.
 
@@ -246,6 +264,7 @@ def summary(
         segments: the run's segment table (:func:`segment_table`, after any filter).
         model_folder: the model checked.
         members: the members the run covers (``--member``); all of the model's by default.
+        units: the units ``segments`` is in (its headers name them).
     """
     checked = segments[_status_in(segments, *CHECKED)]
     worst: dict[str, Any] | None = None
@@ -255,9 +274,9 @@ def summary(
             "member": str(w["member"]),
             "segment": str(w["segment"]),
             "combination": str(w["combination"]),
-            "utilization": round(float(w["utilization"]), 4),
-            "Mr [kN·m]": round(float(w["Mr [kN·m]"]), 3),
-            "demand [kN·m]": round(float(w["demand [kN·m]"]), 3),
+            "utilization": float(significant(w["utilization"])),
+            f"Mr [{units.moment}]": float(significant(w[f"Mr [{units.moment}]"])),
+            f"demand [{units.moment}]": float(significant(w[f"demand [{units.moment}]"])),
             "chosen by": WORST_RULE,
         }
     # Members whose elements have no force rows at all: say so rather than skip them silently.
@@ -281,8 +300,10 @@ def summary(
         "tool": f"flangewise {version('flangewise')}",
         "model": str(model_folder),
         "design basis": METHOD_WORDS[result.settings.gradient],
-        "E [MPa]": result.settings.E,
-        "G [MPa]": result.settings.G,
+        "output units": units.system,
+        "units": units.words,
+        f"E [{units.stress}]": float(significant(units.to_stress(result.settings.E))),
+        f"G [{units.stress}]": float(significant(units.to_stress(result.settings.G))),
         "phi": result.settings.phi,
         "load height": result.settings.load_height,
         "limit to exact": result.settings.limit_to_exact,
@@ -382,6 +403,7 @@ def summary_text(info: dict[str, Any]) -> str:
     lines = [
         f"Model          : {info['model']}",
         f"Design basis   : {info['design basis']}",
+        f"Units          : {info['units']}",
         f"Checked        : {_count(info['members'], 'member')}, "
         f"{_count(info['segments'], 'segment')}, "
         f"{_count(info['load combinations'], 'load combination')} "
@@ -390,10 +412,11 @@ def summary_text(info: dict[str, Any]) -> str:
     ]
     w = info["worst"]
     if w:
+        mu = BY_SYSTEM[info["output units"]].moment
         lines.append(
             f"Worst          : utilization {w['utilization']:.3f} in member {w['member']}, "
             f"segment {w['segment']}, {w['combination']} "
-            f"(demand {w['demand [kN·m]']:.1f} kN·m, Mr {w['Mr [kN·m]']:.1f} kN·m)"
+            f"(demand {w[f'demand [{mu}]']:.1f} {mu}, Mr {w[f'Mr [{mu}]']:.1f} {mu})"
         )
     lines.append(f"Over 1.0       : {info['pairs over 1.0']}")
     missing = info["members without forces (not checked)"]

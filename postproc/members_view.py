@@ -7,15 +7,17 @@ import pandas as pd
 from flangewise.engine.diagrams import SegmentDiagrams
 from flangewise.engine.members import Members
 from flangewise.engine.segments import Segments
+from flangewise.postproc.shown_units import SI, ShownUnits
 
-_M = 1000.0  # mm per m
 
-
-def segment_rows(members: Members, segments: Segments, diagrams: SegmentDiagrams) -> pd.DataFrame:
+def segment_rows(
+    members: Members, segments: Segments, diagrams: SegmentDiagrams, units: ShownUnits = SI
+) -> pd.DataFrame:
     """One row per segment with its member's data and the combinations that compress it.
 
-    Column names carry their units.
+    Column names carry their units (``units``).
     """
+    per, lu = units.length_mm, units.length
     t = segments.table
     pairs = diagrams.pairs
     names = np.asarray(diagrams.combinations, dtype=object)
@@ -30,15 +32,15 @@ def segment_rows(members: Members, segments: Segments, diagrams: SegmentDiagrams
         {
             "member": t["member"].to_numpy(),
             "section": members.table["section"].reindex(t["member"]).to_numpy(),
-            "member length [m]": members.table["length"].reindex(t["member"]).to_numpy() / _M,
+            f"member length [{lu}]": members.table["length"].reindex(t["member"]).to_numpy() / per,
             "elements in order": elements.reindex(t["member"]).to_numpy(),
             "segment": t.index.to_numpy(),
             "flange": t["flange"].to_numpy(),
             "start node": t["node_start"].to_numpy(),
             "end node": t["node_end"].to_numpy(),
-            "start [m]": t["s_start"].to_numpy() / _M,
-            "end [m]": t["s_end"].to_numpy() / _M,
-            "unbraced length [m]": t["length"].to_numpy() / _M,
+            f"start [{lu}]": t["s_start"].to_numpy() / per,
+            f"end [{lu}]": t["s_end"].to_numpy() / per,
+            f"unbraced length [{lu}]": t["length"].to_numpy() / per,
             "start braced": t["braced_start"].to_numpy(),
             "end braced": t["braced_end"].to_numpy(),
             "cantilever": t["cantilever"].to_numpy(),
@@ -51,9 +53,12 @@ def segment_rows(members: Members, segments: Segments, diagrams: SegmentDiagrams
     return out
 
 
-def members_text(members: Members, segments: Segments, diagrams: SegmentDiagrams) -> str:
+def members_text(
+    members: Members, segments: Segments, diagrams: SegmentDiagrams, units: ShownUnits = SI
+) -> str:
     """Return a readable listing: each member, its braced nodes per flange, its segments."""
-    rows = segment_rows(members, segments, diagrams)
+    rows = segment_rows(members, segments, diagrams, units)
+    per, lu = units.length_mm, units.length
     st = segments.stations
     lines: list[str] = []
     for name, m in members.table.iterrows():
@@ -61,13 +66,13 @@ def members_text(members: Members, segments: Segments, diagrams: SegmentDiagrams
         mst = st[st["member"] == name]
         kind = "steep (no top or bottom flange)" if m["steep"] else "beam"
         lines.append(
-            f"Member {name}  section {m['section']}  length {m['length'] / _M:.3f} m  {kind}"
+            f"Member {name}  section {m['section']}  length {m['length'] / per:.3f} {lu}  {kind}"
         )
         lines.append(f"  elements in order: {' '.join(map(str, own.index))}")
         for flange in ("top",) if m["steep"] else ("top", "bottom"):
             braced = mst[mst[flange]]
             listed = ", ".join(
-                f"{n} ({s / _M:.3f} m, {by})"
+                f"{n} ({s / per:.3f} {lu}, {by})"
                 for n, s, by in zip(
                     braced["node"], braced["s"], braced[f"{flange}_by"], strict=True
                 )
@@ -79,8 +84,8 @@ def members_text(members: Members, segments: Segments, diagrams: SegmentDiagrams
             lines.append(f"  free end(s): {', '.join(free['node'])}")
         segs = rows[rows["member"] == name]
         lines.append(
-            f"  {'segment':<16} {'from':>6} {'to':>6} {'start m':>8} {'end m':>8} "
-            f"{'Lu m':>7}  notes / flange compressed in"
+            f"  {'segment':<16} {'from':>6} {'to':>6} {'start ' + lu:>8} {'end ' + lu:>8} "
+            f"{'Lu ' + lu:>7}  notes / flange compressed in"
         )
         for r in segs.to_dict("records"):
             notes = []
@@ -93,8 +98,8 @@ def members_text(members: Members, segments: Segments, diagrams: SegmentDiagrams
             notes.append(r["flange compressed in"])
             lines.append(
                 f"  {r['segment']:<16} {r['start node']!s:>6} {r['end node']!s:>6} "
-                f"{r['start [m]']:>8.3f} {r['end [m]']:>8.3f} {r['unbraced length [m]']:>7.3f}  "
-                + "; ".join(notes)
+                f"{r[f'start [{lu}]']:>8.3f} {r[f'end [{lu}]']:>8.3f} "
+                f"{r[f'unbraced length [{lu}]']:>7.3f}  " + "; ".join(notes)
             )
         lines.append("")
     if len(segments.ignored):

@@ -3,18 +3,18 @@
 from __future__ import annotations
 
 from flangewise.engine.layout import Layout
+from flangewise.postproc.shown_units import SI, ShownUnits
 from flangewise.readers import Model
 
-_KNM = 1.0e6  # N·mm per kN·m
 
-
-def model_summary(model: Model, layout: Layout) -> str:
+def model_summary(model: Model, layout: Layout, units: ShownUnits = SI) -> str:
     """Return a short multi-line description of what was read: counts, units, moment ranges.
 
     Args:
         model: the validated model.
         layout: its members and segments (built so that the summary refuses exactly the input
             that a check refuses).
+        units: the units to show lengths and moments in.
     """
     s = model.settings
     forces = model.forces
@@ -25,7 +25,7 @@ def model_summary(model: Model, layout: Layout) -> str:
         f"sections {s.units.section}, stress {s.units.stress}; vertical axis {s.vertical}",
         f"Nodes        : {len(model.nodes)}",
         f"Elements     : {len(model.elements)} "
-        f"(total length {model.elements['length'].sum() / 1000.0:.2f} m, "
+        f"(total length {units.to_length(model.elements['length'].sum()):.2f} {units.length}, "
         f"{int(model.elements['backwards'].sum())} drawn backwards)",
         f"Sections     : {len(model.sections)} ({_source_counts(model)}); where each one's "
         "properties come from:",
@@ -36,7 +36,9 @@ def model_summary(model: Model, layout: Layout) -> str:
         f"({len(layout.segments.table)} unbraced segments; 'flangewise members' lists them)",
         f"Force rows   : {len(forces)} in {len(model.combinations)} load combination(s)",
         "",
-        "Major-axis moment per load combination [kN·m] (+ compresses the top flange):",
+        f"Output units : {units.words}",
+        "",
+        f"Major-axis moment per load combination [{units.moment}] (+ compresses the top flange):",
     ]
     stats = (
         forces.groupby("combination", observed=True)["M"].agg(["min", "max", "size"]).reset_index()
@@ -45,7 +47,8 @@ def model_summary(model: Model, layout: Layout) -> str:
     lines.append(f"  {'combination':<{width}}  {'min':>10}  {'max':>10}  {'rows':>8}")
     for row in stats.itertuples(index=False):
         lines.append(
-            f"  {row.combination!s:<{width}}  {row.min / _KNM:>10.1f}  {row.max / _KNM:>10.1f}"
+            f"  {row.combination!s:<{width}}  {units.to_moment(row.min):>10.1f}  "
+            f"{units.to_moment(row.max):>10.1f}"
             f"  {row.size:>8}"
         )
     return "\n".join(lines)
