@@ -171,6 +171,9 @@ class Settings:
         check: material constants, φ and the gradient method (``[check]``).
         output_units: the unit system of every output, "si" or "us" (``[output] units``);
             ``None`` for the system of the input units.
+        full_table: how the full result table is written (``[output] full_table``): "auto"
+            (CSV for a table a spreadsheet can take, Parquet for a large one), "csv", "parquet"
+            or "both".
     """
 
     folder: Path
@@ -199,6 +202,7 @@ class Settings:
     members: MemberSettings = field(default_factory=MemberSettings)
     check: CheckSettings = field(default_factory=CheckSettings)
     output_units: Literal["si", "us"] | None = None
+    full_table: Literal["auto", "csv", "parquet", "both"] = "auto"
 
     def path(self, table: str) -> Path:
         """Return the path of a table's file."""
@@ -382,7 +386,9 @@ def _settings_from_dict(folder: Path, path: Path, data: dict[str, Any]) -> Setti
 
     members = _member_settings(name, table("members"), problems)
     check = _check_settings(name, table("check"), problems)
-    output_units = _output_units(name, table("output"), problems)
+    output_in = table("output")
+    output_units = _output_units(name, output_in, problems)
+    full_table = _full_table(name, output_in, problems)
 
     if problems:
         raise InputError(problems)
@@ -405,6 +411,7 @@ def _settings_from_dict(folder: Path, path: Path, data: dict[str, Any]) -> Setti
         members=members,
         check=check,
         output_units=output_units,
+        full_table=full_table,
     )
 
 
@@ -417,8 +424,8 @@ def _output_units(
 ) -> Literal["si", "us"] | None:
     """Read ``[output]``: ``units`` is "si" or "us" (any case); absent means the input's system."""
     for key in given:
-        if key != "units":
-            _expect(problems, name, f"output.{key}", key, "one of ['units']")
+        if key not in ("units", "full_table"):
+            _expect(problems, name, f"output.{key}", key, "one of ['units', 'full_table']")
     if "units" not in given:
         return None
     value = given["units"]
@@ -436,6 +443,28 @@ def _output_units(
         "system of the input units",
     )
     return None
+
+
+#: How the full result table may be written (``[output] full_table``).
+FULL_TABLE: tuple[str, ...] = ("auto", "csv", "parquet", "both")
+
+
+def _full_table(
+    name: str, given: dict[str, Any], problems: list[Problem]
+) -> Literal["auto", "csv", "parquet", "both"]:
+    """Read ``[output] full_table``; absent means "auto"."""
+    value = given.get("full_table", "auto")
+    text = value.strip().lower() if isinstance(value, str) else None
+    if text in ("auto", "csv", "parquet", "both"):
+        return text  # type: ignore[return-value]
+    _expect(
+        problems,
+        name,
+        "output.full_table",
+        value,
+        "'auto' (CSV up to 100 000 rows, Parquet beyond), 'csv', 'parquet' or 'both'",
+    )
+    return "auto"
 
 
 def _one_file_column_each(
