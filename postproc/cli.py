@@ -24,6 +24,7 @@ from flangewise.postproc import exports
 from flangewise.postproc.derivation import derivation_text, find_pair
 from flangewise.postproc.exports import CAUTION
 from flangewise.postproc.files import write_atomic
+from flangewise.postproc.full_table import CSV_ROWS, FULL_TABLE_CHOICES, full_table_names
 from flangewise.postproc.members_view import members_text, segment_rows
 from flangewise.postproc.names import UnknownName, unknown_names_message
 from flangewise.postproc.provenance import (
@@ -306,6 +307,7 @@ class _Run:
     method: str | None = None
     report: bool = False
     units: str | None = None
+    full_table: str | None = None
 
 
 def _load_and_hash(run: _Run) -> tuple[Model, list[InputFile]]:
@@ -383,15 +385,20 @@ def _run_check(run: _Run) -> dict[str, Any]:
                 info["members without forces (not checked)"],
                 info["provenance"],
             )
-        tables = {
-            "segments.csv": seg,
-            "governing.csv": exports.governing_table(seg),
-            "flagged.csv": exports.flagged_table(seg),
+        tables = dict.fromkeys(
+            full_table_names(len(seg), run.full_table or loaded.settings.full_table), seg
+        )
+        tables["governing.csv"] = exports.governing_table(seg)
+        tables["flagged.csv"] = exports.flagged_table(seg)
+        notes = {
+            "units": units.words,
+            "sign": f"M start, M end: {exports.SIGN}",
+            "caution": CAUTION,
         }
         with _writing():
-            exports.write_results(run.out, tables, info, texts=texts)
+            written = exports.write_results(run.out, tables, info, texts=texts, notes=notes)
     click.echo(text)
-    names = ", ".join([*exports.RESULT_FILES, *texts])
+    names = ", ".join(p.name for p in written)
     click.echo(f"Results        : {run.out}/ ({names})")
     click.echo(CAUTION)
     return info
@@ -437,6 +444,13 @@ class _Null:
 @method_option
 @units_option
 @click.option(
+    "--full-table",
+    type=click.Choice(list(FULL_TABLE_CHOICES), case_sensitive=False),
+    help=f"How to write the full table of every segment in every combination: auto (CSV up to "
+    f"{CSV_ROWS:,} rows, Parquet beyond), csv, parquet or both. Default: the settings file's "
+    "[output] full_table, else auto.",
+)
+@click.option(
     "--report",
     is_flag=True,
     help="Also write report.html: diagrams and step-by-step checks for review.",
@@ -455,6 +469,7 @@ def check(
     combinations: tuple[str, ...],
     method: str | None,
     units_choice: str | None,
+    full_table: str | None,
     report: bool,
     exit_zero: bool,
 ) -> None:
@@ -468,7 +483,15 @@ def check(
     file. The output folder ends up holding exactly this run's result files.
     """
     run = _Run(
-        model, settings_file, out, members_wanted, combinations, method, report, units_choice
+        model,
+        settings_file,
+        out,
+        members_wanted,
+        combinations,
+        method,
+        report,
+        units_choice,
+        full_table.lower() if full_table else None,
     )
     info = _run_check(run)
     if not info["result"]["shown to pass"] and not exit_zero:

@@ -19,6 +19,7 @@ import pyarrow as pa
 import pyarrow.csv as pacsv
 from flangewise.engine.check import EXACT_MARGIN, CheckResult
 from flangewise.engine.flags import FLAGS
+from flangewise.postproc.full_table import write_parquet
 from flangewise.postproc.shown_units import BY_SYSTEM, SI, ShownUnits
 
 CAUTION = (
@@ -26,12 +27,18 @@ CAUTION = (
     "engineer; the local design code and licensed practice govern."
 )
 
-#: Result files written by a check, in the order they are written.
+#: Result files written by a check of a model of ordinary size, in the order they are written (a
+#: large one writes its full table as segments.parquet: see :mod:`postproc.full_table`).
 RESULT_FILES = ("segments.csv", "governing.csv", "flagged.csv", "summary.json")
 
 #: Every file name a check may write into its output folder. A run removes those it did not
 #: write this time, so the folder never mixes one run's files with an earlier run's.
-OUR_FILES = (*RESULT_FILES, "report.html")
+OUR_FILES = (*RESULT_FILES, "segments.parquet", "report.html")
+
+#: Flags that change no number of the check: they inform, and stay in the full table's ``flags``
+#: column. ``flagged.csv`` and the report's sections are for the flags that change a result or
+#: question it.
+INFORMATIVE = ("sign-change", "not-end-moments")
 
 METHOD_WORDS = {
     "end_moment": "end-moment ω2 (SANS 10162-1 cl. 13.6(a))",
@@ -212,6 +219,28 @@ def worst_order(segments: pd.DataFrame) -> np.ndarray:
     )
 
 
+def worst_row(segments: pd.DataFrame, among: np.ndarray) -> int:
+    """Position of the worst row of those ``among`` marks, by :func:`worst_order`'s tie-break.
+
+    Only the rows at the highest utilization are ordered (usually one), not the whole table.
+    """
+    util = np.where(among, segments["utilization"].to_numpy(dtype=np.float64), np.nan)
+    finite = np.isfinite(util)
+    if finite.any():
+        tied = np.flatnonzero(finite & (util == np.nanmax(util)))
+    else:
+        tied = np.flatnonzero(among)
+    return int(tied[worst_order(segments.iloc[tied])[0]])
+
+
+def _names_present(column: pd.Series) -> set[str]:
+    """The distinct names of a column, through its categories when it has them."""
+    if isinstance(column.dtype, pd.CategoricalDtype):
+        codes = np.unique(column.cat.codes.to_numpy())
+        return {str(column.cat.categories[c]) for c in codes if c >= 0}
+    return {str(v) for v in column.unique()}
+
+
 def governing_table(segments: pd.DataFrame) -> pd.DataFrame:
     """The governing row of each member, members in natural order (M2 before M10).
 
@@ -233,8 +262,20 @@ def governing_table(segments: pd.DataFrame) -> pd.DataFrame:
 
 
 def flagged_table(segments: pd.DataFrame) -> pd.DataFrame:
-    """Every pair that carries at least one flag."""
-    return segments[segments["flags"] != ""].reset_index(drop=True)
+    """Every pair carrying a flag that changes or questions its result (not :data:`INFORMATIVE`).
+
+    Worked out once per distinct combination of flags (the categories), not per row.
+    """
+    flags = segments["flags"]
+    if not isinstance(flags.dtype, pd.CategoricalDtype):
+        flags = flags.astype("category")
+    acting = np.array(
+        [any(n not in INFORMATIVE for n in str(t).split()) for t in flags.cat.categories],
+        dtype=bool,
+    )
+    codes = flags.cat.codes.to_numpy()
+    keep = np.where(codes >= 0, acting[np.maximum(codes, 0)] if len(acting) else False, False)
+    return segments[keep].reset_index(drop=True)
 
 
 def _status_in(segments: pd.DataFrame, *words: str) -> np.ndarray:
@@ -266,10 +307,12 @@ def summary(
         members: the members the run covers (``--member``); all of the model's by default.
         units: the units ``segments`` is in (its headers name them).
     """
-    checked = segments[_status_in(segments, *CHECKED)]
+    # Masks and a few picked rows only: no copy of the (possibly million-row) table.
+    checked = _status_in(segments, *CHECKED)
+    util = segments["utilization"].to_numpy(dtype=np.float64)
     worst: dict[str, Any] | None = None
-    if len(checked):
-        w = checked.iloc[worst_order(checked)[0]]
+    if checked.any():
+        w = segments.iloc[worst_row(segments, checked)]
         worst = {
             "member": str(w["member"]),
             "segment": str(w["segment"]),
@@ -281,20 +324,18 @@ def summary(
         }
     # Members whose elements have no force rows at all: say so rather than skip them silently.
     scope = list(result.layout.members.table.index.astype(str)) if members is None else members
-    with_forces = set(segments["member"].astype(str).unique())
+    with_forces = _names_present(segments["member"])
     no_forces = [m for m in scope if m not in with_forces]  # a few names: natural order below
     no_forces = [no_forces[i] for i in np.argsort(natural_rank(no_forces), kind="stable")]
     counts = {
-        "pairs checked": len(checked),
+        "pairs checked": int(checked.sum()),
         "pairs not critical": int(_status_in(segments, "not critical").sum()),
         "pairs not checked (class 4)": int(_status_in(segments, "not checked").sum()),
         "pairs over 1.0": int(_status_in(segments, "over").sum()),
         "pairs to verify (cantilever effective length)": int(
             _status_in(segments, "verify length").sum()
         ),
-        "pairs without a finite utilization": int(
-            (~np.isfinite(checked["utilization"].to_numpy(dtype=np.float64))).sum()
-        ),
+        "pairs without a finite utilization": int((checked & ~np.isfinite(util)).sum()),
     }
     return {
         "tool": f"flangewise {version('flangewise')}",
@@ -307,7 +348,7 @@ def summary(
         "phi": result.settings.phi,
         "load height": result.settings.load_height,
         "limit to exact": result.settings.limit_to_exact,
-        "exact analysis": exact_counts(checked),
+        "exact analysis": exact_counts(segments, checked),
         "result": outcome(counts),
         "members": int(segments["member"].nunique()),
         "segments": int(segments["segment"].nunique()),
@@ -331,15 +372,16 @@ LOAD_HEIGHT_WORDS = {
 }
 
 
-def exact_counts(checked: pd.DataFrame) -> dict[str, Any]:
+def exact_counts(segments: pd.DataFrame, checked: np.ndarray) -> dict[str, Any]:
     """How many checked pairs have an exact factor, and why the others have none.
 
     Args:
-        checked: the checked rows of the segment table (status in :data:`CHECKED`).
+        segments: the segment table.
+        checked: per row, whether the pair was checked (status in :data:`CHECKED`).
     """
-    has = np.isfinite(checked["exact factor"].to_numpy(dtype=np.float64))
+    has = np.isfinite(segments["exact factor"].to_numpy(dtype=np.float64))
     # Count the few distinct notes of the rows without (a categorical: no string per row).
-    why = checked["exact note"][~has].value_counts()
+    why = segments["exact note"][checked & ~has].value_counts()
     return {
         "pairs with an exact factor": int(has.sum()),
         "pairs without": {str(k) or "no exact factor": int(v) for k, v in why.items() if v},
@@ -479,6 +521,7 @@ def write_results(
     info: dict[str, Any],
     before_replace: Callable[[str], None] | None = None,
     texts: dict[str, str] | None = None,
+    notes: dict[str, str] | None = None,
 ) -> list[Path]:
     """Write every result file into ``out`` so that a failure leaves the old results intact.
 
@@ -492,12 +535,14 @@ def write_results(
 
     Args:
         out: the results folder (created if needed).
-        tables: file name -> table, for the CSV files.
+        tables: file name -> table: a CSV file, or a Parquet file for a name ending in
+            ``.parquet``.
         info: the summary, written as JSON.
         before_replace: called with each file name just before it replaces (or, for an earlier
             file this run does not write, removes) the old one (a hook for tests that inject a
             failure).
         texts: file name -> text, for other files (the HTML report).
+        notes: key -> text stored in a Parquet file's metadata (units, sign convention, caution).
     """
     out.mkdir(parents=True, exist_ok=True)
     stage = Path(tempfile.mkdtemp(prefix=".flangewise-", dir=out))
@@ -507,7 +552,10 @@ def write_results(
     stale = [n for n in OUR_FILES if n not in names and (out / n).is_file()]
     try:
         for name, table in tables.items():
-            write_csv(stage / name, table)
+            if name.endswith(".parquet"):
+                write_parquet(stage / name, table, notes or {})
+            else:
+                write_csv(stage / name, table)
         for name, text in texts.items():
             _write(stage / name, lambda fh, t=text: fh.write(t))
         _write(

@@ -94,12 +94,12 @@ def _fail_writing_at(monkeypatch, fail_at: str) -> None:
     """Make the results writer fail just before it puts ``fail_at`` in place."""
     real = exports.write_results
 
-    def failing(out_dir, tables, info, before_replace=None, texts=None):
+    def failing(out_dir, tables, info, before_replace=None, texts=None, notes=None):
         def boom(name):
             if name == fail_at:
                 raise OSError("disk full (injected)")
 
-        return real(out_dir, tables, info, before_replace=boom, texts=texts)
+        return real(out_dir, tables, info, before_replace=boom, texts=texts, notes=notes)
 
     monkeypatch.setattr(exports, "write_results", failing)
 
