@@ -5,6 +5,12 @@ read from the check's results or the section table: nothing is recomputed differ
 derivation always matches the exported CSV. The one addition is ``explain``'s check of the exact
 analysis: the same segment's diagram solved again on a mesh twice as fine, to show how little the
 eigenvalue moves.
+
+Numbers are shown in the engineer's choice of units (:mod:`flangewise.postproc.shown_units`):
+positions and lengths in m or ft, plates and section properties in mm or in and their powers,
+moments in kN·m or kip·ft, stresses in MPa or ksi. SI keeps its fixed decimals; US customary
+numbers print to four significant figures. Signed end moments say their sign in the words of the
+result files (:data:`flangewise.postproc.exports.SIGN`).
 """
 
 from __future__ import annotations
@@ -28,11 +34,17 @@ from flangewise.engine.gradient import (
 from flangewise.engine.resistance import INELASTIC_SWITCH
 from flangewise.engine.sections import FLANGE_LIMITS, WEB_LIMITS
 from flangewise.engine.segments import FLANGES
-from flangewise.postproc.exports import LOAD_HEIGHT_WORDS
+from flangewise.postproc.exports import LOAD_HEIGHT_WORDS, SIGN, significant
 from flangewise.postproc.names import UnknownName, unknown_names_message
+from flangewise.postproc.shown_units import SI, ShownUnits
 
-KNM = 1.0e6
-M = 1.0e3
+#: Figures of a US customary number in the derivation (enough for a hand check to 0.1 %).
+FIGURES = 4
+
+#: Superscripts of the powers of a section unit (mm², in⁴, …).
+POWERS = {1: "", 2: "²", 3: "³", 4: "⁴", 6: "⁶"}
+#: The section properties shown, each with the power of the section unit it is in.
+PROPERTY_POWERS = (("A", 2), ("Ix", 4), ("Iy", 4), ("Sx", 3), ("Zx", 3), ("J", 4), ("Cw", 6))
 
 METHOD_NAMES = {
     "end_moment": "end-moment ω2",
@@ -83,7 +95,9 @@ def find_pair(result: CheckResult, segment: str, combination: str) -> pd.Series:
     return hit.iloc[0]
 
 
-def derivation(result: CheckResult, row: pd.Series, analysis: bool = False) -> list[Step]:
+def derivation(
+    result: CheckResult, row: pd.Series, analysis: bool = False, units: ShownUnits = SI
+) -> list[Step]:
     """Return the steps from section properties to utilization for one result row.
 
     Args:
@@ -91,35 +105,27 @@ def derivation(result: CheckResult, row: pd.Series, analysis: bool = False) -> l
         row: one row of ``result.results`` (its index label is its run number).
         analysis: also show the exact buckling analysis itself, with a run on a doubled mesh
             (``explain``; the report leaves it out).
+        units: the units every number is shown in.
     """
     seg = result.layout.segments.table.loc[row["segment"]]
     props = result.sections.loc[row["section"]]
     s = result.settings
+    u = units
     x, m = run_diagram(result, row)
     shape = diagram_departure(row, x, m)
-    extra = [_analysis_step(result, row, props, x, m)] if analysis else []
+    extra = [_analysis_step(result, row, props, x, m, u)] if analysis else []
     steps = [
-        _section_step(row, props),
-        _length_step(row, seg),
-        _diagram_step(row, shape),
-        _gradient_step(row, seg, shape, s.limit_to_exact),
+        _section_step(row, props, u),
+        _length_step(row, seg, u),
+        _diagram_step(row, shape, u),
+        _gradient_step(row, seg, shape, s.limit_to_exact, u),
         *extra,
-        Step(
-            "Elastic critical moment",
-            "SANS 10162-1:2011, cl. 13.6(a)",
-            [
-                "Mcr = (ω2·π/L)·√(E·Iy·G·J + (π·E/L)²·Iy·Cw)",
-                f"    = ({row['factor']:.3f}·π/{row['length']:.0f} mm)·√({s.E:.0f}·"
-                f"{props['Iy']:.4g}·{s.G:.0f}·{props['J']:.4g} + (π·{s.E:.0f}/"
-                f"{row['length']:.0f})²·{props['Iy']:.4g}·{props['Cw']:.4g})",
-                f"    = {row['Mcr'] / KNM:.1f} kN·m",
-            ],
-        ),
-        _resistance_step(row, s.phi),
+        _mcr_step(row, props, s.E, s.G, u),
+        _resistance_step(row, s.phi, u),
         Step(
             "Demand and utilization",
             "demand / Mr",
-            _demand_lines(row),
+            _demand_lines(row, u),
         ),
     ]
     flags = str(row["flags"])
@@ -145,28 +151,127 @@ def no_negative_zero(text: str) -> str:
     return _NEGATIVE_ZERO.sub(r"\1", text)
 
 
-def _section_step(row: pd.Series, p: pd.Series) -> Step:
+def significant_text(value: float, figures: int = FIGURES, sign: bool = False) -> str:
+    """``value`` to ``figures`` significant figures, trailing zeros kept, never "-0".
+
+    Plain decimals, no exponent: 1750.4 → "1750", 15812 → "15810", 0.30512 → "0.3051", 8 → "8.000";
+    NaN and infinities print as Python writes them. With ``sign``, a positive value gets "+".
+    """
+    v = float(significant(np.array([value]), figures)[0])  # rounded, -0.0 made 0.0
+    if not math.isfinite(v):
+        return f"{v}"
+    if v == 0.0:
+        return "0"
+    places = max(0, figures - 1 - math.floor(math.log10(abs(v))))
+    return f"{v:+.{places}f}" if sign else f"{v:.{places}f}"
+
+
+def _moment(nmm: float, u: ShownUnits, digits: int = 2) -> str:
+    """A moment [N·mm] as a number in ``u.moment`` to ``digits`` decimals (unit not appended)."""
+    return f"{u.to_moment(nmm):.{digits}f}"
+
+
+def _at(mm: float, u: ShownUnits) -> str:
+    """A position or length [mm] in ``u.length`` with its unit: "1.500 m", "4.921 ft"."""
+    return f"{u.to_length(mm):.3f} {u.length}"
+
+
+def _stress(mpa: float, u: ShownUnits) -> str:
+    """A stress or modulus [MPa] as a number: whole MPa in SI, four figures in ksi."""
+    return f"{mpa:.0f}" if u.system == "si" else significant_text(u.to_stress(mpa))
+
+
+def _prop(mm: float, power: int, u: ShownUnits) -> str:
+    """A section quantity [mm^power] as a number in the Mcr formula: '%.4g' in SI, four figures."""
+    return f"{mm:.4g}" if u.system == "si" else significant_text(u.to_section(mm, power))
+
+
+def _section_lines(row: pd.Series, p: pd.Series, u: ShownUnits) -> list[str]:
+    """The plates and the properties, in mm (fixed decimals) or in (four figures)."""
+    if u.system == "si":
+        return [
+            f"{row['section']}: d = {p['d']:.1f}, b = {p['b']:.1f}, tf = {p['tf']:.1f}, "
+            f"tw = {p['tw']:.1f}, r = {p['r']:.1f} mm; fy = {p['fy']:.0f} MPa",
+            f"A = {p['A']:.0f} mm², Ix = {p['Ix'] / 1e6:.2f}e6 mm⁴, "
+            f"Iy = {p['Iy'] / 1e6:.3f}e6 mm⁴, "
+            f"Sx = {p['Sx'] / 1e3:.0f}e3 mm³, Zx = {p['Zx'] / 1e3:.0f}e3 mm³, "
+            f"J = {p['J'] / 1e3:.1f}e3 mm⁴, Cw = {p['Cw'] / 1e9:.1f}e9 mm⁶",
+        ]
+
+    plates = ", ".join(
+        f"{k} = {significant_text(u.to_section(p[k]))}" for k in ("d", "b", "tf", "tw", "r")
+    )
+    props = ", ".join(
+        f"{k} = {significant_text(u.to_section(p[k], n))} {u.section}{POWERS[n]}"
+        for k, n in PROPERTY_POWERS
+    )
+    return [
+        f"{row['section']}: {plates} {u.section}; fy = {_stress(p['fy'], u)} {u.stress}",
+        props,
+    ]
+
+
+def _limit(constant: float, root: float, u: ShownUnits, digits: int) -> str:
+    """'145/√fy = 7.70' in SI; in US the clause's constant for fy in ksi: '55.22/√fy = 7.70'.
+
+    The clause's limits are written for fy in MPa; 145/√(fy [MPa]) = (145/√6.895)/√(fy [ksi]).
+    """
+    c = (
+        f"{constant:.0f}"
+        if u.system == "si"
+        else significant_text(constant / math.sqrt(u.stress_mpa))
+    )
+    return f"{c}/√fy = {constant / root:.{digits}f}"
+
+
+def _section_step(row: pd.Series, p: pd.Series, u: ShownUnits) -> Step:
     root = math.sqrt(p["fy"])
     bt = p["b"] / (2.0 * p["tf"])
     hw = (p["d"] - 2.0 * p["tf"]) / p["tw"]
     cls = int(row["section_class"])
     base = "Mp = Zx·fy" if cls <= 2 else "My = Sx·fy"
+    ksi = "" if u.system == "si" else f" (fy in {u.stress})"
     lines = [
-        f"{row['section']}: d = {p['d']:.1f}, b = {p['b']:.1f}, tf = {p['tf']:.1f}, "
-        f"tw = {p['tw']:.1f}, r = {p['r']:.1f} mm; fy = {p['fy']:.0f} MPa",
-        f"A = {p['A']:.0f} mm², Ix = {p['Ix'] / 1e6:.2f}e6 mm⁴, Iy = {p['Iy'] / 1e6:.3f}e6 mm⁴, "
-        f"Sx = {p['Sx'] / 1e3:.0f}e3 mm³, Zx = {p['Zx'] / 1e3:.0f}e3 mm³, "
-        f"J = {p['J'] / 1e3:.1f}e3 mm⁴, Cw = {p['Cw'] / 1e9:.1f}e9 mm⁶",
+        *_section_lines(row, p, u),
         source_words(p),
-        f"flange b/2tf = {bt:.2f}; limits 145/√fy = {FLANGE_LIMITS[0] / root:.2f}, "
-        f"170/√fy = {FLANGE_LIMITS[1] / root:.2f}, 200/√fy = {FLANGE_LIMITS[2] / root:.2f}",
-        f"web h/w = {hw:.1f}; limits 1100/√fy = {WEB_LIMITS[0] / root:.1f}, "
-        f"1700/√fy = {WEB_LIMITS[1] / root:.1f}, 1900/√fy = {WEB_LIMITS[2] / root:.1f}",
+        f"flange b/2tf = {bt:.2f}; limits "
+        + ", ".join(_limit(c, root, u, 2) for c in FLANGE_LIMITS)
+        + ksi,
+        f"web h/w = {hw:.1f}; limits " + ", ".join(_limit(c, root, u, 1) for c in WEB_LIMITS) + ksi,
         f"class {cls}"
         + (": NOT CHECKED by this tool" if cls >= 4 else f": resistance from {base}")
-        + (f" = {row['M_base'] / KNM:.1f} kN·m" if cls < 4 else ""),
+        + (f" = {_moment(row['M_base'], u, 1)} {u.moment}" if cls < 4 else ""),
     ]
     return Step("Section properties and class", "SANS 10162-1:2011, Table 3", lines)
+
+
+def _mcr_step(row: pd.Series, p: pd.Series, e: float, g: float, u: ShownUnits) -> Step:
+    """Mcr by the clause, every quantity in consistent units (L in mm or in, as the section)."""
+    length = (
+        f"{row['length']:.0f}"
+        if u.system == "si"
+        else significant_text(u.to_section(row["length"]))
+    )
+    iy, j, cw = _prop(p["Iy"], 4, u), _prop(p["J"], 4, u), _prop(p["Cw"], 6, u)
+    es, gs = _stress(e, u), _stress(g, u)
+    return Step(
+        "Elastic critical moment",
+        "SANS 10162-1:2011, cl. 13.6(a)",
+        [
+            "Mcr = (ω2·π/L)·√(E·Iy·G·J + (π·E/L)²·Iy·Cw)",
+            f"    = ({row['factor']:.3f}·π/{length} {u.section})·√({es}·{iy}·{gs}·{j} + "
+            f"(π·{es}/{length})²·{iy}·{cw})",
+            f"    = {_moment(row['Mcr'], u, 1)} {u.moment}",
+        ]
+        + (
+            []
+            if u.system == "si"
+            else [
+                f"    (E, G in {u.stress}; L in {u.section}; Iy, J in {u.section}⁴; Cw in "
+                f"{u.section}⁶)"
+            ]
+        ),
+    )
 
 
 def source_words(p: pd.Series) -> str:
@@ -191,7 +296,7 @@ def source_words(p: pd.Series) -> str:
     return words
 
 
-def _length_step(row: pd.Series, seg: pd.Series) -> Step:
+def _length_step(row: pd.Series, seg: pd.Series, u: ShownUnits) -> Step:
     def end(node: str, braced: bool, free: bool) -> str:
         if free:
             return f"{node} (free end)"
@@ -200,9 +305,9 @@ def _length_step(row: pd.Series, seg: pd.Series) -> Step:
     lines = [
         f"member {row['member']}, {row['flange']} flange: from "
         f"{end(seg['node_start'], seg['braced_start'], seg['free_start'])} at "
-        f"{seg['s_start'] / M:.3f} m to {end(seg['node_end'], seg['braced_end'], seg['free_end'])}"
-        f" at {seg['s_end'] / M:.3f} m",
-        f"L = {row['length'] / M:.3f} m",
+        f"{_at(seg['s_start'], u)} to {end(seg['node_end'], seg['braced_end'], seg['free_end'])}"
+        f" at {_at(seg['s_end'], u)}",
+        f"L = {_at(row['length'], u)}",
     ]
     if seg["assumed"]:
         lines.append("an end is held only by an inferred (assumed) brace: verify the connection")
@@ -263,22 +368,22 @@ def diagram_departure(row: pd.Series, x: np.ndarray, m: np.ndarray) -> Departure
     )
 
 
-def _departure_words(d: Departure) -> str:
+def _departure_words(d: Departure, u: ShownUnits) -> str:
     """'inside station 12 % of |M|max off the straight line at 1.500 m; a jump of …'."""
     words = (
         f"largest departure from the straight line between the end moments: "
-        f"{d.share * 100:.0f} % of |M|max, at {d.at / M:.3f} m"
+        f"{d.share * 100:.0f} % of |M|max, at {_at(d.at, u)}"
         if math.isfinite(d.at)
         else "no stations"
     )
     if d.jump > 0:
-        words += f"; a jump of {d.jump / KNM:.2f} kN·m at {d.jump_at / M:.3f} m"
+        words += f"; a jump of {_moment(d.jump, u)} {u.moment} at {_at(d.jump_at, u)}"
     else:
         words += "; no moment jump inside"
     return words
 
 
-def _diagram_step(row: pd.Series, shape: Departure) -> Step:
+def _diagram_step(row: pd.Series, shape: Departure, u: ShownUnits) -> Step:
     flange = row["flange"]
     sign = (
         "moments as the model gives them"
@@ -286,22 +391,25 @@ def _diagram_step(row: pd.Series, shape: Departure) -> Step:
         else f"positive = compression in the {flange} flange"
     )
     peak = (
-        f"largest |M| inside: {row['inside_peak'] / KNM:.2f} kN·m at "
-        f"{row['inside_peak_at'] / M:.3f} m from the segment start"
+        f"largest |M| inside: {_moment(row['inside_peak'], u)} {u.moment} at "
+        f"{_at(row['inside_peak_at'], u)} from the segment start"
         if not math.isnan(row["inside_peak_at"])
         else "no station inside the segment"
     )
+    mu = u.moment
     return Step(
         "Moment diagram of the segment",
         "from the analysis, this load combination",
         [
             f"{sign}; load combination {row['combination']}",
-            f"M at start = {row['M_start'] / KNM:.2f} kN·m, M at end = {row['M_end'] / KNM:.2f} "
-            f"kN·m, largest |M| = {row['M_max'] / KNM:.2f} kN·m",
+            # The sign in the words of the result files' M start and M end headers.
+            f"M at start = {_moment(row['M_start'], u)} {mu}, M at end = "
+            f"{_moment(row['M_end'], u)} {mu} ({SIGN}), largest |M| = "
+            f"{_moment(row['M_max'], u)} {mu}",
             peak,
-            f"|M| at L/4, L/2, 3L/4 = {row['M_a'] / KNM:.2f}, {row['M_b'] / KNM:.2f}, "
-            f"{row['M_c'] / KNM:.2f} kN·m",
-            _departure_words(shape),
+            f"|M| at L/4, L/2, 3L/4 = {_moment(row['M_a'], u)}, {_moment(row['M_b'], u)}, "
+            f"{_moment(row['M_c'], u)} {mu}",
+            _departure_words(shape, u),
         ],
     )
 
@@ -326,7 +434,9 @@ def no_exact_reason(row: pd.Series) -> str:
     return "the diagram has no length to analyse"
 
 
-def _gradient_step(row: pd.Series, seg: pd.Series, shape: Departure, limit_to_exact: bool) -> Step:
+def _gradient_step(
+    row: pd.Series, seg: pd.Series, shape: Departure, limit_to_exact: bool, u: ShownUnits
+) -> Step:
     kappa = row["kappa"]
     lines = []
     if math.isnan(kappa):
@@ -343,11 +453,11 @@ def _gradient_step(row: pd.Series, seg: pd.Series, shape: Departure, limit_to_ex
             f"(≤ 2.5) [SANS 10162-1:2011, cl. 13.6(a)]"
         )
     flags = set(str(row["flags"]).split())
-    large = max(abs(row["M_start"]), abs(row["M_end"])) / KNM
+    large = f"{_moment(max(abs(row['M_start']), abs(row['M_end'])), u)} {u.moment}"
     if "peak-inside" in flags:
         lines.append(
-            f"  NOT APPLICABLE: inside, |M| = {row['inside_peak'] / KNM:.2f} kN·m at "
-            f"{row['inside_peak_at'] / M:.3f} m exceeds the larger end moment {large:.2f} kN·m "
+            f"  NOT APPLICABLE: inside, |M| = {_moment(row['inside_peak'], u)} {u.moment} at "
+            f"{_at(row['inside_peak_at'], u)} exceeds the larger end moment {large} "
             f"(by more than {INSIDE_TOLERANCE:.1%}): ω2 = 1.0"
         )
     elif "zero-ends" in flags:
@@ -358,13 +468,11 @@ def _gradient_step(row: pd.Series, seg: pd.Series, shape: Departure, limit_to_ex
             "segment: ω2 = 1.0"
         )
     else:
-        lines.append(
-            f"  applies: no moment inside exceeds the larger end moment ({large:.2f} kN·m)"
-        )
+        lines.append(f"  applies: no moment inside exceeds the larger end moment ({large})")
     if "not-end-moments" in flags:
         lines.append(
             "  BUT NOT END MOMENTS ONLY (flag not-end-moments): "
-            + _off_line_words(shape)
+            + _off_line_words(shape, u)
             + "; the formula assumes a straight diagram between the end moments"
         )
     lines.append(
@@ -395,16 +503,16 @@ def _gradient_step(row: pd.Series, seg: pd.Series, shape: Departure, limit_to_ex
     return Step("Moment-gradient factor", "see each line", lines)
 
 
-def _off_line_words(d: Departure) -> str:
+def _off_line_words(d: Departure, u: ShownUnits) -> str:
     """The departure named: '12 % of |M|max off …', or 'a jump of 48.00 kN·m at 1.500 m'."""
     parts = []
     if d.share > LINE_SHARE and math.isfinite(d.at):
         parts.append(
             f"inside station {d.share * 100:.0f} % of |M|max off the straight line, at "
-            f"{d.at / M:.3f} m"
+            f"{_at(d.at, u)}"
         )
     if d.jump > 0:
-        parts.append(f"a jump of {d.jump / KNM:.2f} kN·m at {d.jump_at / M:.3f} m")
+        parts.append(f"a jump of {_moment(d.jump, u)} {u.moment} at {_at(d.jump_at, u)}")
     return " and ".join(parts)
 
 
@@ -430,7 +538,12 @@ def _limit_lines(row: pd.Series, high: bool, limit_to_exact: bool) -> list[str]:
 
 
 def _analysis_step(
-    result: CheckResult, row: pd.Series, props: pd.Series, x: np.ndarray, m: np.ndarray
+    result: CheckResult,
+    row: pd.Series,
+    props: pd.Series,
+    x: np.ndarray,
+    m: np.ndarray,
+    u: ShownUnits,
 ) -> Step:
     """The exact analysis of this one diagram, and its change when the mesh is doubled."""
     s = result.settings
@@ -440,18 +553,24 @@ def _analysis_step(
     uniform = float(buckling.m_cr_uniform(np.array([row["length"]]), e_iy, g_j, e_cw)[0])
     flange = np.array([list(FLANGES).index(str(row["flange"]))])
     height = buckling.load_heights(flange, np.array([props["d"] - props["tf"]]), s.load_height)
+    a = (
+        f"{height[0] + 0.0:+.1f}"
+        if u.system == "si"
+        else significant_text(u.to_section(height[0]), sign=True)
+    )
     lines = [
         "the segment's own moment diagram (every station a node, M linear between stations); "
         "fork supports at both ends: lateral deflection and twist held, lateral rotation and "
         "warping free",
         f"load height: {LOAD_HEIGHT_WORDS[s.load_height]} ([check] load_height); here "
-        f"a = {height[0] + 0.0:+.1f} mm above the shear centre, towards the flange in compression"
+        f"a = {a} {u.section} above the shear centre, towards the flange in compression"
         + (
             " (a member steeper than 45° has no top or bottom: taken at the shear centre)"
             if str(row["flange"]) == "either"
             else ""
         ),
-        f"Mcr of uniform moment = (π/L)·√(E·Iy·G·J + (π·E/L)²·Iy·Cw) = {uniform / KNM:.1f} kN·m "
+        f"Mcr of uniform moment = (π/L)·√(E·Iy·G·J + (π·E/L)²·Iy·Cw) = "
+        f"{_moment(uniform, u, 1)} {u.moment} "
         "[Timoshenko & Gere (1961), ch. 6]",
     ]
     if not math.isfinite(row["exact_factor"]):
@@ -465,18 +584,20 @@ def _analysis_step(
     change = (finer - mcr) / mcr
     lines += [
         f"finite elements: {n} cubic Hermite elements (DOF u, u′, φ, φ′ per node)",
-        f"eigenvalue: Mcr exact = {mcr / KNM:.1f} kN·m (the largest |M| of this diagram at "
-        "buckling)",
-        f"exact factor = {mcr / KNM:.1f} / {uniform / KNM:.1f} = {row['exact_factor']:.3f}",
-        f"mesh doubled ({int(mesh.n_elements[0])} elements): Mcr exact = {finer / KNM:.1f} kN·m, "
-        f"change {change * 100:+.4f} %",
+        f"eigenvalue: Mcr exact = {_moment(mcr, u, 1)} {u.moment} (the largest |M| of this "
+        "diagram at buckling)",
+        f"exact factor = {_moment(mcr, u, 1)} / {_moment(uniform, u, 1)} = "
+        f"{row['exact_factor']:.3f}",
+        f"mesh doubled ({int(mesh.n_elements[0])} elements): Mcr exact = "
+        f"{_moment(finer, u, 1)} {u.moment}, change {change * 100:+.4f} %",
     ]
     return Step("Exact elastic buckling analysis", EXACT_CITATION, lines)
 
 
-def _resistance_step(row: pd.Series, phi: float) -> Step:
-    base = row["M_base"] / KNM
-    mcr = row["Mcr"] / KNM
+def _resistance_step(row: pd.Series, phi: float, u: ShownUnits) -> Step:
+    base = u.to_moment(row["M_base"])
+    mcr = u.to_moment(row["Mcr"])
+    mu = u.moment
     name = "Mp" if row["section_class"] <= 2 else "My"
     if row["section_class"] >= 4:
         return Step(
@@ -484,49 +605,56 @@ def _resistance_step(row: pd.Series, phi: float) -> Step:
         )
     if mcr > INELASTIC_SWITCH * base:
         lines = [
-            f"Mcr = {mcr:.1f} > 0.67·{name} = {INELASTIC_SWITCH * base:.1f} kN·m: inelastic",
+            f"Mcr = {mcr:.1f} > 0.67·{name} = {INELASTIC_SWITCH * base:.1f} {mu}: inelastic",
             f"Mr = 1.15·φ·{name}·(1 − 0.28·{name}/Mcr) = 1.15·{phi}·{base:.1f}·(1 − 0.28·"
-            f"{base:.1f}/{mcr:.1f}) = {1.15 * phi * base * (1 - 0.28 * base / mcr):.1f} kN·m",
-            f"≤ φ·{name} = {phi * base:.1f} kN·m → Mr = {row['Mr'] / KNM:.1f} kN·m",
+            f"{base:.1f}/{mcr:.1f}) = {1.15 * phi * base * (1 - 0.28 * base / mcr):.1f} {mu}",
+            f"≤ φ·{name} = {phi * base:.1f} {mu} → Mr = {_moment(row['Mr'], u, 1)} {mu}",
         ]
     else:
         lines = [
-            f"Mcr = {mcr:.1f} ≤ 0.67·{name} = {INELASTIC_SWITCH * base:.1f} kN·m: elastic",
-            f"Mr = φ·Mcr = {phi}·{mcr:.1f} = {row['Mr'] / KNM:.1f} kN·m",
+            f"Mcr = {mcr:.1f} ≤ 0.67·{name} = {INELASTIC_SWITCH * base:.1f} {mu}: elastic",
+            f"Mr = φ·Mcr = {phi}·{mcr:.1f} = {_moment(row['Mr'], u, 1)} {mu}",
         ]
     return Step("Factored resistance", "SANS 10162-1:2011, cl. 13.6(a)", lines)
 
 
-def _demand_lines(row: pd.Series) -> list[str]:
+def _demand_lines(row: pd.Series, u: ShownUnits) -> list[str]:
     if row["status"] == "not critical":
         return [f"the {row['flange']} flange is nowhere in compression: not critical"]
     if row["status"] == "not checked":
         return ["class 4 section: not checked"]
+    mu = u.moment
+    demand = _moment(row["demand"], u)
     lines = [
-        f"demand = largest moment compressing the {row['flange']} flange = "
-        f"{row['demand'] / KNM:.2f} kN·m",
-        f"utilization = {row['demand'] / KNM:.2f} / {row['Mr'] / KNM:.1f} = "
+        f"demand = largest moment compressing the {row['flange']} flange = {demand} {mu}",
+        f"utilization = {demand} / {_moment(row['Mr'], u, 1)} = "
         f"{row['utilization']:.3f} → {str(row['status']).upper()}",
     ]
     if math.isfinite(row["Mr_exact"]):
         lines.append(
-            f"with the exact factor: Mcr exact = {row['Mcr_exact'] / KNM:.1f} kN·m, Mr exact = "
-            f"{row['Mr_exact'] / KNM:.1f} kN·m, utilization exact = {row['demand'] / KNM:.2f} / "
-            f"{row['Mr_exact'] / KNM:.1f} = {row['utilization_exact']:.3f}"
+            f"with the exact factor: Mcr exact = {_moment(row['Mcr_exact'], u, 1)} {mu}, "
+            f"Mr exact = {_moment(row['Mr_exact'], u, 1)} {mu}, utilization exact = {demand} / "
+            f"{_moment(row['Mr_exact'], u, 1)} = {row['utilization_exact']:.3f}"
         )
     else:
         lines.append(f"no exact utilization: {no_exact_reason(row)}")
     return lines
 
 
-def derivation_text(result: CheckResult, row: pd.Series) -> str:
-    """Return the derivation as plain text for the terminal, the exact analysis included."""
+def derivation_text(result: CheckResult, row: pd.Series, units: ShownUnits = SI) -> str:
+    """Return the derivation as plain text for the terminal, the exact analysis included.
+
+    Args:
+        result: the check's results.
+        row: one row of ``result.results``.
+        units: the units every number is shown in.
+    """
     lines = [
         f"Segment {row['segment']} (member {row['member']}, {row['flange']} flange), "
         f"load combination {row['combination']}",
         "",
     ]
-    for i, step in enumerate(derivation(result, row, analysis=True), start=1):
+    for i, step in enumerate(derivation(result, row, analysis=True, units=units), start=1):
         lines.append(f"{i}. {step.title}   [{step.clause}]")
         lines.extend(f"   {line}" for line in step.lines)
         lines.append("")

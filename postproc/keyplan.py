@@ -17,6 +17,7 @@ from html import escape
 
 import numpy as np
 import pandas as pd
+from flangewise.postproc.shown_units import SI, ShownUnits
 
 WIDTH = 760
 PAD = 36
@@ -85,12 +86,13 @@ def elevation_axis(members: pd.DataFrame) -> str:
     return "y" if span_y > span_x else "x"
 
 
-def key_plan(members: pd.DataFrame, util: Mapping[str, float]) -> str:
+def key_plan(members: pd.DataFrame, util: Mapping[str, float], units: ShownUnits = SI) -> str:
     """The plan (x–y), the elevation that shows the model best, and the legend, as HTML.
 
     Args:
         members: ``layout.members.table`` (index member name; x0, y0, z0, x1, y1, z1 in mm).
         util: each member's governing utilization (members absent or NaN: none checked).
+        units: the units the views' extents are stated in (``units.length``).
     """
     if members.empty:
         return ""
@@ -99,7 +101,9 @@ def key_plan(members: pd.DataFrame, util: Mapping[str, float]) -> str:
     classes = band_classes(values)
     across = elevation_axis(members)
     other = "y" if across == "x" else "x"
-    plan = _view(members, names, values, classes, ("x", "y"), "key-plan", "Plan (x–y), from above")
+    plan = _view(
+        members, names, values, classes, ("x", "y"), "key-plan", "Plan (x–y), from above", units
+    )
     elev = _view(
         members,
         names,
@@ -108,6 +112,7 @@ def key_plan(members: pd.DataFrame, util: Mapping[str, float]) -> str:
         (across, "z"),
         "key-elevation",
         f"Elevation ({across}–z), looking along {other}",
+        units,
     )
     return f"{plan}{elev}{_legend()}"
 
@@ -136,6 +141,7 @@ def _view(
     axes: tuple[str, str],
     svg_id: str,
     title: str,
+    units: ShownUnits,
 ) -> str:
     """One projection: lines (or points, for members seen end-on), shaded and named."""
     h, v = axes
@@ -164,8 +170,8 @@ def _view(
         f'<svg id="{escape(svg_id)}" class="plan" xmlns="http://www.w3.org/2000/svg" '
         f'viewBox="0 0 {WIDTH} {height}" role="img" aria-label="{escape(title)}">',
         f'<text x="{PAD}" y="14" class="cap">{escape(title)}; '
-        f"{h} {lo[0] / 1e3:.1f} to {hi[0] / 1e3:.1f} m, {v} {lo[1] / 1e3:.1f} to "
-        f"{hi[1] / 1e3:.1f} m</text>",
+        f"{h} {units.to_length(lo[0]):.1f} to {units.to_length(hi[0]):.1f} {units.length}, "
+        f"{v} {units.to_length(lo[1]):.1f} to {units.to_length(hi[1]):.1f} {units.length}</text>",
     ]
     anchors = []
     # One drawing per group (a loop over the groups' lines, the SVG's own elements).

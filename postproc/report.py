@@ -9,6 +9,9 @@ beside each step, kept together on one printed page. Pairs that repeat a drawn c
 digits (a symmetric frame's mirror members) are listed under it instead of drawn again; pairs
 whose flags only inform (``INFORMATIVE``) are listed in one table. Page numbers come from CSS
 ``@page`` margin boxes. The caution stands at the top and in every section.
+
+Every number is shown in the engineer's choice of units (``units``: SI or US customary, stated in
+the title block); signed end moments say their sign in the result files' words.
 """
 
 from __future__ import annotations
@@ -31,6 +34,7 @@ from flangewise.postproc.derivation import (
     EXACT_CITATION,
     derivation,
     no_exact_reason,
+    significant_text,
     source_words,
 )
 from flangewise.postproc.exports import (
@@ -42,10 +46,8 @@ from flangewise.postproc.exports import (
 )
 from flangewise.postproc.keyplan import CSS as KEY_CSS
 from flangewise.postproc.keyplan import key_plan
-from flangewise.postproc.svg import Marker, moment_diagram, number, utilization_bars
-
-KNM = 1.0e6
-M = 1.0e3
+from flangewise.postproc.shown_units import SI, ShownUnits
+from flangewise.postproc.svg import M_SIGN, Marker, moment_diagram, number, utilization_bars
 
 SCOPE = (
     "Scope: lateral-torsional buckling in major-axis bending only. Not checked: axial force and "
@@ -109,6 +111,7 @@ table.title td:first-child { width: 9rem; color: #444; }
   .steps td.work { font-size: 7pt; line-height: 1.15; } .steps td.title { width: 9rem; }
   section.segment { break-inside: avoid; margin-top: .4rem; padding-top: .2rem; }
   section.segment p { margin: .2rem 0; }
+  section.segment p.meta { font-size: 7pt; line-height: 1.15; }
   svg.diagram { max-width: 460px; margin: .1rem 0; } svg.bars { max-width: 520px; }
   svg.plan { max-width: 640px; } a { color: inherit; text-decoration: none; }
   .contents, .informative, .title { break-inside: auto; } .keyplan { break-inside: avoid; }
@@ -133,6 +136,7 @@ def build_report(
     outcome: str = "",
     no_forces: Sequence[str] = (),
     provenance: Mapping[str, Any] | None = None,
+    units: ShownUnits = SI,
 ) -> str:
     """Return the whole report as one HTML string.
 
@@ -146,10 +150,11 @@ def build_report(
         no_forces: the run's members that have no force rows (listed as not checked).
         provenance: summary.json's record of how the results were made (its ``inputs`` give the
             files' sha256 shown in the title block); None when there is none.
+        units: the units every number is shown in (named in the title block).
     """
     r = result.results
     gov = _governing(r)
-    drawn, twins = _drawn_pairs(r, gov)
+    drawn, twins = _drawn_pairs(r, gov, units)
     shown, omitted = drawn[:MAX_SECTIONS], max(0, len(drawn) - MAX_SECTIONS)
     key = station_key(result.layout.diagrams, result.layout.members)
     inputs = list(provenance.get("inputs", [])) if provenance else []
@@ -160,15 +165,15 @@ def build_report(
         for i in shown
     }
     body = [
-        _header(result, model_folder, settings_text, selection, inputs, short),
+        _header(result, model_folder, settings_text, selection, inputs, short, units),
         _contents(r, shown, reasons, twins),
-        _overview(result, gov, omitted, outcome, no_forces),
-        _key_plan(result, gov),
+        _overview(result, gov, omitted, outcome, no_forces, units),
+        _key_plan(result, gov, units),
         _informative(r, set(drawn) | {j for t in twins.values() for j in t}),
         "<h2 id='segments'>Governing and flagged segments (every flag that changed a result)</h2>",
     ]
     body.extend(
-        _segment_section(result, r.loc[i], n, reasons[i], key, r.loc[twins.get(i, [])])
+        _segment_section(result, r.loc[i], n, reasons[i], key, r.loc[twins.get(i, [])], units)
         for n, i in enumerate(shown, start=1)
     )
     foot = f"flangewise {version('flangewise')}" + (f" · inputs {short}" if short else "")
@@ -189,7 +194,7 @@ def no_negative_zero(text: str) -> str:
     return NEGATIVE_ZERO.sub(r"\1", text)
 
 
-def _key_plan(result: CheckResult, gov: pd.DataFrame) -> str:
+def _key_plan(result: CheckResult, gov: pd.DataFrame, units: ShownUnits) -> str:
     """The key plan section: where each member is, shaded by its governing utilization."""
     util = dict(zip(gov["member"].astype(str), gov["utilization"].astype(float), strict=True))
     members = result.layout.members.table
@@ -199,7 +204,7 @@ def _key_plan(result: CheckResult, gov: pd.DataFrame) -> str:
         "<p class='meta'>Every member of this run, named where it stands and shaded by its "
         "governing utilization; members that fall on one another in a view are named together "
         "and shaded by the highest of them.</p>"
-        f"{key_plan(run, util)}</div>"
+        f"{key_plan(run, util, units)}</div>"
     )
 
 
@@ -221,7 +226,9 @@ def _any_flag(r: pd.DataFrame, names: Sequence[str]) -> np.ndarray:
     return np.logical_or.reduce(cols) if cols else np.zeros(len(r), dtype=bool)
 
 
-def _drawn_pairs(r: pd.DataFrame, gov: pd.DataFrame) -> tuple[list[Any], dict[Any, list[Any]]]:
+def _drawn_pairs(
+    r: pd.DataFrame, gov: pd.DataFrame, units: ShownUnits
+) -> tuple[list[Any], dict[Any, list[Any]]]:
     """The pairs to draw (governing, then actionable, then other result-changing flags) and twins.
 
     A pair whose check repeats a drawn one to the printed digits (same load combination,
@@ -237,19 +244,21 @@ def _drawn_pairs(r: pd.DataFrame, gov: pd.DataFrame) -> tuple[list[Any], dict[An
     if not picked:
         return [], {}
     p = r.loc[picked]
-    ends = np.abs(p[["M_start", "M_end"]].to_numpy(dtype=float)) / KNM
-    # The digits the section prints: mm, 0.01 kN·m, 0.001 in the factor, 0.1 kN·m in Mr.
+    u = units
+    ends = np.abs(u.to_moment(p[["M_start", "M_end"]].to_numpy(dtype=float)))
+    # The digits the section prints: 0.001 of the length unit, 0.01 of the moment unit, 0.001 in
+    # the factor, 0.1 of the moment unit in Mr.
     key = pd.DataFrame(
         {
             "combination": p["combination"].astype(str).to_numpy(),
             "section": p["section"].astype(str).to_numpy(),
             "flange": p["flange"].astype(str).to_numpy(),
-            "length": np.round(p["length"].to_numpy(dtype=float)),
+            "length": np.round(u.to_length(p["length"].to_numpy(dtype=float)), 3),
             "small": np.round(ends.min(axis=1), 2),
             "large": np.round(ends.max(axis=1), 2),
             "factor": np.round(p["factor"].to_numpy(dtype=float), 3),
-            "Mr": np.round(p["Mr"].to_numpy(dtype=float) / KNM, 1),
-            "demand": np.round(p["demand"].to_numpy(dtype=float) / KNM, 2),
+            "Mr": np.round(u.to_moment(p["Mr"].to_numpy(dtype=float)), 1),
+            "demand": np.round(u.to_moment(p["demand"].to_numpy(dtype=float)), 2),
             "flags": p["flags"].astype(str).to_numpy(),
         },
         index=p.index,
@@ -288,6 +297,7 @@ def _header(
     selection: str,
     inputs: Sequence[Mapping[str, Any]],
     short: str,
+    units: ShownUnits,
 ) -> str:
     """The title block: what was checked, when, with what, under which settings and filters."""
     s = result.settings
@@ -300,9 +310,11 @@ def _header(
         ("date", when),
         ("tool", f"flangewise {version('flangewise')}"),
         ("input settings", settings_text),
+        ("output units", units.words),
         (
             "design basis",
-            f"{METHOD_WORDS[s.gradient]}; E = {s.E:.0f} MPa, G = {s.G:.0f} MPa, φ = {s.phi}",
+            f"{METHOD_WORDS[s.gradient]}; E = {_stress(s.E, units)}, "
+            f"G = {_stress(s.G, units)}, φ = {s.phi}",
         ),
         (
             "exact factor",
@@ -399,7 +411,12 @@ def _limit_words(limit_to_exact: bool) -> str:
 
 
 def _overview(
-    result: CheckResult, gov: pd.DataFrame, omitted: int, outcome: str, no_forces: Sequence[str]
+    result: CheckResult,
+    gov: pd.DataFrame,
+    omitted: int,
+    outcome: str,
+    no_forces: Sequence[str],
+    units: ShownUnits,
 ) -> str:
     r = result.results
     status = r["status"].astype(str)
@@ -437,9 +454,10 @@ def _overview(
     rows = "".join(f"<tr><td>{escape(k)}</td><td class='num'>{v}</td></tr>" for k, v in counts)
     nearest = "".join(
         f"<tr><td>{escape(str(g['member']))}</td><td>{escape(str(g['segment']))}</td>"
-        f"<td>{escape(str(g['combination']))}</td><td class='num'>{g['length'] / M:.2f}</td>"
+        f"<td>{escape(str(g['combination']))}</td>"
+        f"<td class='num'>{units.to_length(g['length']):.2f}</td>"
         f"<td class='num'>{g['factor']:.2f}</td><td class='num'>{_maybe(g['exact_factor'])}</td>"
-        f"<td class='num'>{g['Mr'] / KNM:.1f}</td>"
+        f"<td class='num'>{units.to_moment(g['Mr']):.1f}</td>"
         f"<td class='num {'over' if g['utilization'] > 1 else ''}'>{g['utilization']:.3f}</td>"
         "</tr>"
         for _, g in gov.head(10).iterrows()
@@ -468,8 +486,9 @@ def _overview(
         + _no_forces(no_forces)
         + _sections_table(result)
         + "<h3>Members nearest failure</h3>"
-        "<table><tr><th>member</th><th>segment</th><th>load combination</th><th>Lu [m]</th>"
-        "<th>factor used</th><th>exact factor</th><th>Mr [kN·m]</th><th>utilization</th></tr>"
+        "<table><tr><th>member</th><th>segment</th><th>load combination</th>"
+        f"<th>Lu [{units.length}]</th><th>factor used</th><th>exact factor</th>"
+        f"<th>Mr [{units.moment}]</th><th>utilization</th></tr>"
         f"{nearest}</table>"
         + utilization_bars(names, vals, "utilization-chart")
         + (
@@ -500,6 +519,13 @@ def _sections_table(result: CheckResult) -> str:
     )
 
 
+def _stress(mpa: float, units: ShownUnits) -> str:
+    """E or G with its unit: whole MPa as before, four significant figures in ksi."""
+    if units.system == "si":
+        return f"{mpa:.0f} {units.stress}"
+    return f"{significant_text(units.to_stress(mpa))} {units.stress}"
+
+
 def _maybe(value: float, digits: int = 2) -> str:
     """A number, or a dash where there is none (NaN)."""
     return f"{value:.{digits}f}" if np.isfinite(value) else "–"
@@ -524,8 +550,10 @@ def _segment_section(
     reason: str,
     key: np.ndarray,
     twins: pd.DataFrame,
+    units: ShownUnits,
 ) -> str:
     """One numbered section: the segment's diagram and derivation, and the twins it stands for."""
+    u = units
     layout = result.layout
     seg = layout.segments.table.loc[row["segment"]]
     member = str(row["member"])
@@ -535,7 +563,7 @@ def _segment_section(
     # Every brace point and both member ends, each with its node id under the chart.
     markers = [
         Marker(
-            float(p) / M,
+            float(u.to_length(p)),
             "both" if (t and b) else ("top" if t else ("bottom" if b else "")),
             str(n),
         )
@@ -545,30 +573,32 @@ def _segment_section(
         if t or b or e != ""
     ]
     sign = -1.0 if row["flange"] == "bottom" else 1.0  # results are in flange-compression sign
-    labels = [
-        (seg["s_start"] / M, sign * row["M_start"] / KNM, number(sign * row["M_start"] / KNM)),
-        (seg["s_end"] / M, sign * row["M_end"] / KNM, number(sign * row["M_end"] / KNM)),
+    ends = [
+        (float(u.to_length(seg["s_start"])), sign * float(u.to_moment(row["M_start"]))),
+        (float(u.to_length(seg["s_end"])), sign * float(u.to_moment(row["M_end"]))),
     ]
+    labels = [(a, v, number(v)) for a, v in ends]
     # The inside peak is labelled where it matters: it rejects the end-moment formula, or it
     # stands clear of both ends (a peak next to an end would only print over the end's label).
     clear = 0.1 * row["length"] < row["inside_peak_at"] < 0.9 * row["length"]
     if "peak-inside" in str(row["flags"]).split() or clear:
         at = seg["s_start"] + row["inside_peak_at"]
         near = int(np.argmin(np.abs(s - at))) if len(s) else 0
-        value = float(m[near]) / KNM if len(m) else 0.0
-        labels.append((at / M, value, f"inside peak {number(value)}"))
+        value = float(u.to_moment(m[near])) if len(m) else 0.0
+        labels.append((float(u.to_length(at)), value, f"inside peak {number(value)}"))
     flange = {"top": "top flange", "bottom": "bottom flange", "either": "either flange"}[
         str(row["flange"])
     ]
     svg_id = f"diagram-{row['segment']}-{row['combination']}".replace(" ", "_")
     chart = moment_diagram(
-        s / M,
-        m / KNM,
-        (seg["s_start"] / M, seg["s_end"] / M),
+        np.asarray(u.to_length(s)),
+        np.asarray(u.to_moment(m)),
+        (float(u.to_length(seg["s_start"])), float(u.to_length(seg["s_end"]))),
         markers,
         labels,
         f"Member {member}, {row['combination']}: moment diagram, segment {row['segment']} shaded",
         svg_id,
+        u,
     )
     steps = "".join(
         f"<tr><td class='title'><b>{i}. {escape(step.title)}</b><br>"
@@ -576,7 +606,7 @@ def _segment_section(
         f"<td class='work'>{escape(no_negative_zero(chr(10).join(step.lines)))}</td></tr>"
         # The flags' meanings stand once in the overview's table, not again in every section.
         for i, step in enumerate(
-            [s for s in derivation(result, row) if s.title != "Flags"], start=1
+            [s for s in derivation(result, row, units=u) if s.title != "Flags"], start=1
         )
     )
     util = row["utilization"]
@@ -598,14 +628,29 @@ def _segment_section(
         f"{_twin_words(layout.segments.table, twins)}"
         f"<p>Member {escape(member)}, section {escape(str(row['section']))}; "
         f"compression checked in the <b>{flange}</b>; from node {escape(str(seg['node_start']))}"
-        f" to {escape(str(seg['node_end']))}, Lu = {row['length'] / M:.3f} m; factor used "
+        f" to {escape(str(seg['node_end']))}, Lu = {u.to_length(row['length']):.3f} "
+        f"{escape(u.length)}; factor used "
         f"{row['factor']:.3f}, {exact}; {verdict}; flags: {flags} (meanings: "
         "<a href='#flags'>Flags</a>).</p>"
         f"{chart}"
-        "<p class='meta'>▼ top flange braced · ▲ bottom flange braced · shaded: this segment</p>"
+        "<p class='meta'>▼ top flange braced · ▲ bottom flange braced · shaded: this segment. "
+        f"{escape(_sign_words(str(row['flange'])))}</p>"
         f"<table class='steps'><tr><th>step and clause</th><th>working</th></tr>{steps}</table>"
         f"<div class='caution small'>{escape(CAUTION)}</div>"
         "</section>"
+    )
+
+
+def _sign_words(flange: str) -> str:
+    """How the diagram's sign relates to the working's M at start and M at end, in one line."""
+    if flange == "bottom":
+        return (
+            f"Diagram: {M_SIGN}; this segment checks the bottom flange, so its end values are "
+            "M at start and M at end of the working with the opposite sign."
+        )
+    return (
+        f"Diagram: {M_SIGN}; its end values are M at start and M at end of the working, the "
+        "same numbers."
     )
 
 

@@ -5,11 +5,13 @@ Coordinates: the chart area is ``WIDTH`` × ``HEIGHT`` px with margins for label
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from html import escape
 
 import numpy as np
 from flangewise.postproc.keyplan import place_labels
+from flangewise.postproc.shown_units import SI, ShownUnits
 
 #: Moment labels (bold 11 px sans-serif): estimated px per character.
 LABEL_CHAR_PX = 6.8
@@ -19,6 +21,11 @@ LEFT, RIGHT, TOP, BOTTOM = 64, 20, 40, 70
 #: Node ids under the chart: this many px per character (11 px sans-serif) and two rows, the
 #: second for an id that would touch its neighbour in the first.
 ID_CHAR_PX = 6.2
+#: The diagram's sign, in words that match the derivation's ("+ compresses segment's flange, top
+#: if either"): the member's own moment, whichever flange a segment checks.
+M_SIGN = "+ compresses top flange"
+#: At most this many intervals between distance ticks in US customary units.
+MAX_TICKS = 6
 
 
 def number(value: float, digits: int = 1, sign: bool = False) -> str:
@@ -32,9 +39,40 @@ def number(value: float, digits: int = 1, sign: bool = False) -> str:
     return text.replace("-", "−")
 
 
+def nice_ticks(top: float, most: int = MAX_TICKS) -> tuple[np.ndarray, int]:
+    """Ticks from 0 to ``top`` at a round step (1, 2, 2.5 or 5 × 10ⁿ), and decimals to print.
+
+    The step is the smallest such that at most ``most`` intervals fit: 45 ft → every 10 ft,
+    30 ft → every 5 ft, 2.2 ft → every 0.5 ft. A ``top`` of 0 or less gives the one tick 0.
+    """
+    if not top > 0:
+        return np.array([0.0]), 0
+    n = math.floor(math.log10(top / most))
+    k = next(k for k in (1.0, 2.0, 2.5, 5.0, 10.0) if top / (k * 10.0**n) <= most)
+    step = k * 10.0**n
+    # The decimals the step itself needs: 0.5 → 1, 0.25 → 2, 25 → 0.
+    decimals = max(0, -n + (1 if k == 2.5 else 0) - (1 if k == 10.0 else 0))
+    return np.arange(0, math.floor(top / step + 1e-9) + 1) * step, decimals
+
+
+def distance_ticks(s_max: float, units: ShownUnits) -> list[tuple[float, str]]:
+    """Ticks along the member [units.length] with their text.
+
+    SI keeps its quarter points (two decimals); US customary ticks stand at a round step, since a
+    quarter of a length in feet seldom is one.
+    """
+    if units.system == "si":
+        return [(float(v), number(v, 2)) for v in np.linspace(0.0, s_max, 5)]
+    ticks, decimals = nice_ticks(s_max)
+    return [(float(v), number(v, decimals)) for v in ticks]
+
+
 @dataclass(frozen=True)
 class Marker:
-    """A point of the member under the chart: position along it [m], flange braced, node id."""
+    """A point of the member under the chart: where, which flange is braced there, its node id.
+
+    ``s`` is the position along the member in the chart's length unit.
+    """
 
     s: float
     flange: str  # "top", "bottom", "both", or "" (a member end that holds neither flange)
@@ -54,18 +92,20 @@ def moment_diagram(
     labels: list[tuple[float, float, str]],
     title: str,
     svg_id: str,
+    units: ShownUnits = SI,
 ) -> str:
-    """A member's moment diagram [kN·m] along it [m], one segment shaded, brace points marked.
+    """A member's moment diagram along it, one segment shaded, brace points marked.
 
     Args:
-        s: positions along the member [m], in order (repeated at a jump).
-        m: moments [kN·m], positive when they compress the top flange (drawn upwards).
-        shade: start and end of the segment to shade [m].
+        s: positions along the member [units.length], in order (repeated at a jump).
+        m: moments [units.moment], positive when they compress the top flange (drawn upwards).
+        shade: start and end of the segment to shade [units.length].
         markers: brace points and member ends to mark (▼ top flange braced above the chart, ▲
             bottom flange braced below); each one's node id is printed under the chart.
         labels: (s, M, text) labels to place at points of the diagram.
         title: the chart's caption.
         svg_id: the element id (tests and links find the chart by it).
+        units: the units of ``s``, ``shade``, ``m`` and the labels, named on the axes.
     """
     x0, x1 = LEFT, WIDTH - RIGHT
     y0, y1 = TOP, HEIGHT - BOTTOM
@@ -92,16 +132,16 @@ def moment_diagram(
     parts.append(
         f'<text x="14" y="{(y0 + y1) / 2:.0f}" class="tick" '
         f'transform="rotate(-90 14 {(y0 + y1) / 2:.0f})" text-anchor="middle">'
-        "M [kN·m], + compresses top</text>"
+        f"M [{escape(units.moment)}], {escape(M_SIGN)}</text>"
     )
-    for v in np.linspace(0.0, s_max, 5):
+    for v, text in distance_ticks(s_max, units):
         parts.append(
             f'<text x="{float(fx(v)):.1f}" y="{y1 + 50}" class="tick" text-anchor="middle">'
-            f"{number(v, 2)}</text>"
+            f"{text}</text>"
         )
     parts.append(
         f'<text x="{(x0 + x1) / 2:.0f}" y="{HEIGHT - 6}" class="tick" text-anchor="middle">'
-        "distance along the member [m]</text>"
+        f"distance along the member [{escape(units.length)}]</text>"
     )
     if len(s):
         pts = " ".join(
