@@ -42,6 +42,11 @@ _NON_FINITE_WORDS = frozenset({"nan", "inf", "infinity"})
 #: Where :func:`read_table` leaves what :func:`cell_text` needs to find a cell's text.
 ORIGIN_KEY = "flangewise_origin"
 
+STRING = pa.string()
+
+#: Identifiers of a big table, encoded as they are read: one string per distinct value.
+DICTIONARY = pa.dictionary(pa.int32(), pa.string())
+
 
 @contextmanager
 def file_bytes(path: Path) -> Iterator[bytes | mmap.mmap]:
@@ -161,17 +166,21 @@ def parse(
     ids: tuple[str, ...],
     name: str,
     problems: ProblemList,
+    id_type: pa.DataType = STRING,
 ) -> tuple[pa.Table, bool] | None:
     """Parse the mapped columns; return (table, whether numbers were read as text) or ``None``.
 
-    Numbers are read as float64 first; a cell the parser cannot convert sends every numeric column
-    of this table to text, parsed by :func:`parse_numbers`.
+    Identifiers are read as ``id_type``: text, or :data:`DICTIONARY` (the parser encodes them
+    as it reads, so that a big table holds no string per row). Numbers are read as float64
+    first; a cell the parser cannot convert sends every numeric column of this table to text,
+    parsed by :func:`parse_numbers`.
     """
     as_text = False
     newlines = False
     while True:
         types = {
-            i: pa.string() if ours in ids or as_text else pa.float64() for i, ours in mapped.items()
+            i: id_type if ours in ids else STRING if as_text else pa.float64()
+            for i, ours in mapped.items()
         }
         try:
             return source.read(types, newlines_in_values=newlines), as_text

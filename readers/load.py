@@ -464,10 +464,10 @@ def _forces(
 
     # Element codes re-based onto the elements table, so that codes are element row numbers.
     # Ids match exactly as text ("007" is not "7"). One gather through a lookup whose last entry
-    # (-1) catches the missing code -1.
+    # (-1) catches the missing code -1; the lookup already has the categorical's code type.
     labels = pd.Index(df["element"].cat.categories.to_numpy(dtype=object), dtype=object)
     ids = pd.Index(elements.index.to_numpy(dtype=object), dtype=object)
-    lookup = np.append(ids.get_indexer(labels), -1)
+    lookup = np.append(ids.get_indexer(labels), -1).astype(_code_type(len(ids)))
     raw_codes = df["element"].cat.codes.to_numpy()
     ecode = lookup[raw_codes]
     _unknown_elements(raw_codes, lookup, labels, df.index, file, col("element"), problems)
@@ -476,14 +476,15 @@ def _forces(
     moment = numeric(df, "M", file, col("M"), problems).to_numpy()
     pos = station_positions(df, pos_written, ecode, broken, elements, settings, file, problems)
 
-    m = moments_nmm(df, moment, settings, file, problems)
+    m = moments_nmm(df, moment, settings, file, problems)  # a new array: negated in place
     if settings.positive_moment == "compresses_bottom":
-        m = -m
-    if settings.backwards_flips_sign:
-        flip = np.append(elements["backwards"].to_numpy(), False)[ecode]
-        m = np.where(flip, -m, m)
+        np.negative(m, out=m)
+    if settings.backwards_flips_sign and elements["backwards"].any():
+        flip = np.append(elements["backwards"].to_numpy(dtype=bool), False)[ecode]
+        np.negative(m, out=m, where=flip)
     out = {
-        "element": pd.Categorical.from_codes(ecode, categories=elements.index),
+        # Every code is a row of the elements table once no problem is left (checked above).
+        "element": pd.Categorical.from_codes(ecode, categories=elements.index, validate=False),
         "combination": df["combination"].array,
         "position": pos,
         "M": m,
@@ -509,6 +510,14 @@ def _forces(
     chosen = pd.DataFrame(out, copy=False)[keep]
     chosen["combination"] = chosen["combination"].cat.remove_unused_categories()
     return chosen
+
+
+def _code_type(categories: int) -> type[np.signedinteger]:
+    """Return the integer type pandas keeps a categorical's codes in, for so many categories."""
+    for t in (np.int8, np.int16, np.int32):
+        if categories < np.iinfo(t).max:
+            return t
+    return np.int64
 
 
 def _unknown_elements(

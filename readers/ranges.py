@@ -244,7 +244,7 @@ def moments_nmm(
         MOMENT_LIMIT_NMM,
         df,
         "M",
-        spreadsheet_rows(df.index),
+        None,
         file,
         col("M"),
         f"a moment within ±{MOMENT_LIMIT_NMM / 1e6:g} kN·m once converted from '{moment_unit}'",
@@ -260,7 +260,7 @@ def outside_range(
     hi: float,
     df: pd.DataFrame,
     ours: str,
-    rows: np.ndarray,
+    rows: np.ndarray | None,
     file: str,
     column: str,
     expected: str,
@@ -280,7 +280,7 @@ def outside_range(
         hi: largest plausible value.
         df: the table the values come from (its cells are quoted as the file wrote them).
         ours: our name of the column the values come from.
-        rows: spreadsheet row per value.
+        rows: spreadsheet row per value (``None``: from ``df``'s index, only where needed).
         file: the file's name.
         column: the file's own column name.
         expected: what was expected, in words.
@@ -289,6 +289,9 @@ def outside_range(
         consider: the values to look at (default: all).
     """
     with np.errstate(invalid="ignore", over="ignore"):
+        if consider is None and len(value) and lo <= value.min() and value.max() <= hi:
+            # Two reductions without temporaries settle the usual case; a NaN fails them.
+            return np.zeros(len(value), dtype=bool)
         bad = ~np.isnan(value) & ~((value >= lo) & (value <= hi))
         if consider is not None:
             bad &= consider
@@ -309,5 +312,6 @@ def outside_range(
             if factors
             else f" (check {unit_key})"
         )
-        problems.add_many(file, rows[take], column, cell_text(df, ours, take), expected + hint)
+        at = spreadsheet_rows(df.index[take]) if rows is None else rows[take]
+        problems.add_many(file, at, column, cell_text(df, ours, take), expected + hint)
     return bad

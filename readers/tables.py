@@ -20,9 +20,18 @@ import numpy as np
 import pandas as pd
 import pyarrow as pa
 import pyarrow.compute as pc
+from flangewise.readers.columns import (
+    CATEGORY_TABLES,
+    ID_COLUMNS,
+    categorical,
+    map_columns,
+    text_ids,
+)
 from flangewise.readers.csv_parse import (
+    DICTIONARY,
     MAX_LISTED_ROWS,
     ORIGIN_KEY,
+    STRING,
     Origin,
     Source,
     Unparsed,
@@ -36,19 +45,6 @@ from flangewise.readers.csv_parse import (
 )
 from flangewise.readers.errors import MAX_PROBLEMS, ProblemList
 from flangewise.readers.settings import COLUMNS, OPTIONAL_TABLES, Settings
-
-#: Columns that hold identifiers (read as text, compared as text).
-ID_COLUMNS: dict[str, tuple[str, ...]] = {
-    "nodes": ("id",),
-    "elements": ("id", "start", "end", "section", "member"),
-    "sections": ("name",),
-    "forces": ("element", "combination"),
-    "braces": ("node", "flange"),
-    "supports": ("node", "restrains"),
-}
-
-#: Tables big enough that identifiers are stored as categories rather than text.
-CATEGORY_TABLES = frozenset({"forces"})
 
 #: What a required table without data rows lacks.
 NO_DATA_ROWS = "data rows below the header: the file has no data rows"
@@ -107,7 +103,7 @@ def _read(
     if not is_utf8_text(data, end, name, problems):
         return None
     header, header_end = header_row(data, start, end, settings.delimiter)
-    mapped = _map_columns(settings, table, header, problems)
+    mapped = map_columns(settings, table, header, problems)
     if mapped is None:
         return None
     if header_end >= end:
@@ -118,51 +114,12 @@ def _read(
     source = Source(
         pa.py_buffer(data).slice(0, end), len(header), settings.delimiter, settings.decimal
     )
-    read = parse(source, mapped, ID_COLUMNS[table], name, problems)
+    id_type = DICTIONARY if table in CATEGORY_TABLES else STRING
+    read = parse(source, mapped, ID_COLUMNS[table], name, problems, id_type)
     if read is None:
         return None
     arrow, as_text = read
     return _frame(source, path, table, mapped, arrow, as_text, name, problems)
-
-
-def _map_columns(
-    settings: Settings, table: str, header: list[str], problems: ProblemList
-) -> dict[int, str] | None:
-    """Return {position of the file column: our column}, or ``None`` once the reason is noted.
-
-    Names are compared without surrounding blanks. A mapped name the header holds twice is a
-    problem (which one is meant?); unmapped columns may repeat.
-    """
-    name = settings.files[table]
-    names = [h.strip() for h in header]
-    where: dict[str, list[int]] = {}
-    for i, h in enumerate(names):
-        where.setdefault(h, []).append(i)
-    mapped: dict[int, str] = {}
-    ok = True
-    for ours, required in COLUMNS[table]:
-        theirs = settings.columns[table][ours]
-        key = f"(mapped by [columns.{table}] {ours})"
-        found = where.get(theirs.strip(), [])
-        if len(found) > 1:
-            ok = False
-            places = ", ".join(str(i + 1) for i in found)
-            problems.add(
-                name,
-                1,
-                theirs,
-                None,
-                f"the column '{theirs.strip()}' once {key}; the header has it in columns "
-                f"{places} (rename the others)",
-            )
-        elif found:
-            mapped[found[0]] = ours
-        elif required:
-            ok = False
-            problems.add(
-                name, 1, theirs, None, f"a column '{theirs}' {key}; the header has {names}"
-            )
-    return mapped if ok else None
 
 
 def _frame(
@@ -183,7 +140,7 @@ def _frame(
     unparsed: dict[str, Unparsed] = {}
     needs_text = []
     ids = [ours for ours in order if ours in ID_COLUMNS[table]]
-    encode = _categorical if table in CATEGORY_TABLES else _text
+    encode = categorical if table in CATEGORY_TABLES else text_ids
     with ThreadPoolExecutor(max_workers=max(1, len(ids))) as pool:
         # pyarrow releases the GIL while it encodes: big id columns are encoded side by side.
         encoded = dict(
@@ -265,42 +222,6 @@ def _rows_with_values(
     return None if len(inside) else keep
 
 
-def _text(col: pa.ChunkedArray) -> tuple[pd.Series, np.ndarray]:
-    """Return an id column as object text, blanks stripped, empty cells missing; and the empties."""
-    stripped = pc.utf8_trim_whitespace(col)
-    empty = pc.equal(stripped, "").to_numpy(zero_copy_only=False)
-    values = stripped.to_numpy(zero_copy_only=False)
-    values[empty] = None
-    return pd.Series(values, dtype=object), empty
-
-
-def _categorical(col: pa.ChunkedArray) -> tuple[pd.Categorical, np.ndarray]:
-    """Encode a text id column as a categorical of stripped, non-empty labels.
-
-    Encoded by pyarrow (faster than having the CSV parser build dictionaries); only the dictionary
-    (one entry per distinct text) is stripped and compared: no Python string per row. Labels equal
-    after stripping (" B1" and "B1") share one code; a blank one is missing.
-    """
-    if col.num_chunks == 0:
-        codes = np.zeros(0, dtype=np.int32)
-        labels = np.zeros(0, dtype=object)
-    else:
-        encoded = pc.dictionary_encode(col).unify_dictionaries().combine_chunks()
-        indices = encoded.indices  # never null: empty cells are read as ""
-        codes = indices.to_numpy(zero_copy_only=indices.null_count == 0)
-        labels = np.asarray(pc.utf8_trim_whitespace(encoded.dictionary).to_pylist(), dtype=object)
-    codes = np.asarray(codes, dtype=np.int32)
-    if len(set(labels.tolist())) == len(labels) and not (labels == "").any():
-        cat = pd.Categorical.from_codes(codes, categories=pd.Index(labels, dtype=object))
-        return cat, codes < 0
-    merged, remap = np.unique(labels, return_inverse=True)
-    keep = merged != ""
-    renumber = np.where(keep, np.cumsum(keep) - 1, -1)[remap].astype(np.int32)
-    codes = np.where(codes >= 0, renumber[np.maximum(codes, 0)], -1).astype(np.int32)
-    cat = pd.Categorical.from_codes(codes, categories=pd.Index(merged[keep], dtype=object))
-    return cat, codes < 0
-
-
 def _positions(df: pd.DataFrame, records: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Return (positions in ``df`` of the records still in it, which of ``records`` those are)."""
     if len(df) == 0:
@@ -327,6 +248,16 @@ def _unparsed_cells(df: pd.DataFrame, column: str) -> Unparsed:
     return Unparsed(pos, info.texts.filter(pa.array(hit)), info.non_finite[hit])
 
 
+def _all_finite(values: np.ndarray) -> bool:
+    """Whether every value is a finite number (no NaN: no empty or unparsed cell; no infinity).
+
+    A finite sum proves it in one pass without a temporary array; a sum that overflows (huge but
+    finite values) answers no, and the caller takes the long way.
+    """
+    with np.errstate(over="ignore", invalid="ignore"):
+        return bool(np.isfinite(values.sum()))
+
+
 def numeric(
     df: pd.DataFrame,
     column: str,
@@ -350,8 +281,14 @@ def numeric(
         their_name: the file's own column name for messages.
         problems: where problems go.
         required: whether an empty cell is a problem (optional columns may have gaps).
+
+    Returns:
+        The values; the column itself when every value is a finite number (no copy: do not
+        modify it in place).
     """
     s = df[column]
+    if s.dtype == np.float64 and _all_finite(s.to_numpy()):
+        return s
     if pd.api.types.is_float_dtype(s.dtype) or (
         pd.api.types.is_integer_dtype(s.dtype) and not pd.api.types.is_bool_dtype(s.dtype)
     ):
