@@ -384,6 +384,7 @@ def _run_check(run: _Run) -> dict[str, Any]:
                 exports.outcome_line(info["result"]).replace("Result         :", "Result:"),
                 info["members without forces (not checked)"],
                 info["provenance"],
+                units=units,
             )
         tables = dict.fromkeys(
             full_table_names(len(seg), run.full_table or loaded.settings.full_table), seg

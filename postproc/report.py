@@ -40,6 +40,7 @@ from flangewise.postproc.derivation import (
 from flangewise.postproc.exports import (
     CAUTION,
     CHECKED,
+    INFORMATIVE,
     LOAD_HEIGHT_WORDS,
     METHOD_WORDS,
     worst_order,
@@ -61,9 +62,9 @@ SCOPE = (
 #: the exact analysis. Their segments come first after the governing ones.
 ACTIONABLE = ("code-factor-high",)
 
-#: Flags that inform without changing any number of the check: their pairs are listed in a table,
-#: not drawn. Every other flag (including any added later) changed a result and is drawn.
-INFORMATIVE = ("sign-change", "not-end-moments")
+#: Flags that inform without changing any number of the check (:data:`exports.INFORMATIVE`, the
+#: same set that flagged.csv leaves out): their pairs are listed in a table, not drawn. Every other
+#: flag (including any added later) changed a result and is drawn.
 
 #: Hex digits of the inputs' hash shown in the title block and the page footer.
 SHORT_HASH = 12

@@ -151,3 +151,17 @@ def test_members_and_summary_follow_the_units(tmp_path):
     out = CliRunner().invoke(main, ["summary", str(twin)])
     assert out.exit_code == 0, out.output
     assert "[kip·ft]" in out.output and "kN·m" not in out.output
+
+
+def test_the_report_and_explain_of_a_us_model_are_in_us_units(tmp_path):
+    twin = _us_twin(tmp_path)
+    out = tmp_path / "o"
+    result = CliRunner().invoke(main, ["check", str(twin), "--out", str(out), "--report"])
+    assert result.exit_code == 0, result.output
+    report = (out / "report.html").read_text(encoding="utf-8")
+    assert "kip·ft" in report and "kN·m" not in report
+    worst = json.loads((out / "summary.json").read_text(encoding="utf-8"))["worst"]
+    text = CliRunner().invoke(main, ["explain", str(twin), worst["segment"], worst["combination"]])
+    assert text.exit_code == 0, text.output
+    assert "kip·ft" in text.output and "kN·m" not in text.output
+    assert f"{worst['utilization']:.3f}" in text.output
