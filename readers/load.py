@@ -23,6 +23,7 @@ from flangewise.readers.model import (
     Model,
     drawn_backwards,
 )
+from flangewise.readers.nearby import close_pairs
 from flangewise.readers.ranges import moments_nmm, node_coordinates, section_plates
 from flangewise.readers.settings import (
     FLANGE_WORDS,
@@ -39,7 +40,6 @@ from flangewise.readers.tables import (
     required_text,
     spreadsheet_rows,
 )
-from scipy.spatial import cKDTree
 
 #: Section property overrides and the power of the section length unit each carries.
 OVERRIDES: dict[str, int] = {"A": 2, "Ix": 4, "Iy": 4, "Sx": 3, "Zx": 3, "J": 4, "Cw": 6}
@@ -175,7 +175,7 @@ def _coincident_nodes(
     idx = np.flatnonzero(finite)
     if len(idx) < 2:
         return
-    pairs = cKDTree(pts[idx]).query_pairs(r=COINCIDENT_MM, output_type="ndarray")
+    pairs = close_pairs(pts[idx], COINCIDENT_MM)
     if len(pairs) == 0:
         return
     a, b = idx[pairs.min(axis=1)], idx[pairs.max(axis=1)]
