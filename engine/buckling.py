@@ -401,6 +401,7 @@ EXACT_NOTES = (
     "",
     "free end: fork supports do not model a cantilever",
     "flange not braced at one end: fork supports do not hold",
+    "not analysed: the exact analysis was switched off for this run",
 )
 
 

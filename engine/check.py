@@ -12,7 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 from flangewise.engine import gradient, resistance
-from flangewise.engine.buckling import EXACT_NOTES, exact_factors
+from flangewise.engine.buckling import EXACT_NOTES, ExactResult, exact_factors
 from flangewise.engine.flags import flag_labels
 from flangewise.engine.layout import Layout, build_layout
 from flangewise.engine.sections import section_class, section_properties
@@ -69,21 +69,28 @@ def diagram_shape(runs: gradient.Runs, m_max: np.ndarray) -> DiagramShape:
     n = len(runs.length)
     if n == 0:
         return DiagramShape(np.zeros(0), np.zeros(0, dtype=bool))
-    run = runs.run_of_station
     last = runs.offsets[1:] - 1
     m0, m1 = runs.m[runs.starts], runs.m[last]
     with np.errstate(invalid="ignore", divide="ignore"):
-        t = np.clip(runs.x / runs.length[run], 0.0, 1.0)
+        t = runs.spread(runs.length)
+        np.divide(runs.x, t, out=t)
+        np.clip(t, 0.0, 1.0, out=t)
         scale = np.where(m_max > 0.0, m_max, 1.0)
-    line = m0[run] + (m1 - m0)[run] * t
-    departure = np.maximum.reduceat(np.abs(runs.m - line), runs.starts) / scale
-    same_x = np.r_[np.diff(runs.x) <= gradient.STATION_MERGE_MM, False]
-    inside = (runs.x > gradient.END_TOLERANCE_MM) & (
-        runs.x < runs.length[run] - gradient.END_TOLERANCE_MM
-    )
-    step = np.r_[np.abs(np.diff(runs.m)), 0.0] > LINE_SHARE * scale[run]
-    same_run = np.r_[run[1:] == run[:-1], False]
-    jump = np.bincount(run, weights=same_x & same_run & inside & step, minlength=n) > 0
+    # line = m0 + (m1 − m0)·t, built in two buffers: each new array is a pass over every station.
+    line = runs.spread(m1 - m0)
+    line *= t
+    line += runs.gather(m0, out=t)
+    del t
+    np.subtract(runs.m, line, out=line)
+    departure = np.maximum.reduceat(np.abs(line, out=line), runs.starts) / scale
+    # A jump: the next station of the same run at the same x, inside, a step above the share.
+    jump_at = np.r_[np.diff(runs.x) <= gradient.STATION_MERGE_MM, False]
+    jump_at[last] = False
+    jump_at &= runs.inside
+    step = np.diff(runs.m)
+    np.abs(step, out=step)
+    jump_at[:-1] &= step > runs.gather(LINE_SHARE * scale, out=line)[:-1]
+    jump = runs.count(jump_at) > 0
     return DiagramShape(departure, jump)
 
 
@@ -105,12 +112,15 @@ class CheckResult:
     settings: CheckSettings
 
 
-def check_model(model: Model, settings: CheckSettings | None = None) -> CheckResult:
+def check_model(
+    model: Model, settings: CheckSettings | None = None, *, exact: bool = True
+) -> CheckResult:
     """Check every segment of ``model`` in every load combination.
 
     Args:
         model: the validated model.
         settings: check settings; the model's own ``[check]`` settings by default.
+        exact: run the exact buckling analysis (see :func:`check_pairs`).
     """
     settings = settings or model.settings.check
     layout = build_layout(model)
@@ -120,15 +130,21 @@ def check_model(model: Model, settings: CheckSettings | None = None) -> CheckRes
     )
     props = props.assign(class_flange=flange_cls, class_web=web_cls, section_class=cls)
     return CheckResult(
-        results=check_pairs(layout, props, settings),
+        results=check_pairs(layout, props, settings, exact=exact),
         sections=props,
         layout=layout,
         settings=settings,
     )
 
 
-def check_pairs(layout: Layout, props: pd.DataFrame, settings: CheckSettings) -> pd.DataFrame:
+def check_pairs(
+    layout: Layout, props: pd.DataFrame, settings: CheckSettings, *, exact: bool = True
+) -> pd.DataFrame:
     """Return one row per (segment, combination) pair with every number of the check.
+
+    With ``exact`` off the exact buckling analysis is not run (to measure the rest of the check
+    without it): the exact columns are NaN with the note saying so, ``code-factor-high`` is never
+    raised and nothing is limited to an exact factor. The ``exact`` design basis needs it on.
 
     Columns: ``segment_row`` (row of ``Segments.table``), ``segment``, ``member``, ``flange``,
     ``combination``, ``section``, ``length`` [mm], ``section_class``, ``M_start``, ``M_end``
@@ -157,8 +173,8 @@ def check_pairs(layout: Layout, props: pd.DataFrame, settings: CheckSettings) ->
     m_max, m_a, m_b, m_c = gradient.quarter_point_moments(runs)
     omega2_qp = gradient.omega2_quarter_point(m_max, m_a, m_b, m_c)
     cb = gradient.cb_aisc(m_max, m_a, m_b, m_c)
-    m_min_signed = np.minimum.reduceat(diag.m, runs.starts) if len(k) else np.zeros(0)
-    m_max_signed = np.maximum.reduceat(diag.m, runs.starts) if len(k) else np.zeros(0)
+    m_min_signed = pairs["m_lowest"].to_numpy()
+    m_max_signed = pairs["m_highest"].to_numpy()
     sign_change = (m_max_signed > 1.0e-3 * m_max) & (m_min_signed < -1.0e-3 * m_max)
 
     cantilever = seg["cantilever"].to_numpy()[k]
@@ -186,17 +202,31 @@ def check_pairs(layout: Layout, props: pd.DataFrame, settings: CheckSettings) ->
 
     # Exact elastic buckling of the sampled diagram, where its fork supports hold.
     fork = compressed & ~class4 & ~cantilever & ~end_unbraced
-    exact = exact_factors(
-        runs, fork, flange_code, prop("Iy"), prop("J"), prop("Cw"), prop("d") - prop("tf"), settings
-    )
+    if exact:
+        solved = exact_factors(
+            runs,
+            fork,
+            flange_code,
+            prop("Iy"),
+            prop("J"),
+            prop("Cw"),
+            prop("d") - prop("tf"),
+            settings,
+        )
+    elif settings.gradient == "exact":
+        raise ValueError("the exact design basis needs the exact analysis: exact=True")
+    else:
+        nan = np.full(len(k), np.nan)
+        solved = ExactResult(m_cr=nan, factor=nan, elements=np.zeros(len(k), dtype=np.int64))
     shape = diagram_shape(runs, m_max)
+    del runs  # its per-station arrays are not needed past here: not kept beside the results
 
     by_method = {
         "end_moment": ends.omega2,
         "quarter_point": omega2_qp,
         # Cb is published uncapped; used as ω2 in the Mcr formula it is held to the same 2.5.
         "cb": np.minimum(cb, gradient.OMEGA2_CAP),
-        "exact": np.nan_to_num(exact.factor, nan=1.0),
+        "exact": np.nan_to_num(solved.factor, nan=1.0),
     }
     basis = np.where(fallback, 1.0, by_method[settings.gradient])
     capped = (
@@ -206,8 +236,8 @@ def check_pairs(layout: Layout, props: pd.DataFrame, settings: CheckSettings) ->
     )
     # A code factor above the exact one overestimates Mcr for this diagram; being more
     # conservative than a code shortcut is always allowed, so by default the factor is limited.
-    high = basis > (1.0 + EXACT_MARGIN) * exact.factor  # False where the exact factor is NaN
-    factor = np.where(high & settings.limit_to_exact, exact.factor, basis)
+    high = basis > (1.0 + EXACT_MARGIN) * solved.factor  # False where the exact factor is NaN
+    factor = np.where(high & settings.limit_to_exact, solved.factor, basis)
     formula_used = (
         (settings.gradient == "end_moment") & ~fallback & (ends.omega2 == ends.omega2_formula)
     )
@@ -221,7 +251,7 @@ def check_pairs(layout: Layout, props: pd.DataFrame, settings: CheckSettings) ->
     m_base = np.where(cls <= 2, prop("Zx"), prop("Sx")) * prop("fy")
     mcr = resistance.m_cr(factor, length, prop("Iy"), prop("J"), prop("Cw"), settings.E, settings.G)
     mr = resistance.m_r(mcr, m_base, settings.phi)
-    mr_exact = resistance.m_r(exact.m_cr, m_base, settings.phi)
+    mr_exact = resistance.m_r(solved.m_cr, m_base, settings.phi)
     checked = compressed & ~class4
     demand = pairs["demand"].to_numpy()
     # The settings give no sign convention for N: take |N| (tension counts too, conservative).
@@ -251,7 +281,7 @@ def check_pairs(layout: Layout, props: pd.DataFrame, settings: CheckSettings) ->
         "not-end-moments": off_line & checked,
         "axial-force": (axial_share > AXIAL_SHARE) & checked,  # False where N is missing (NaN)
     }
-    out = pd.DataFrame(
+    return pd.DataFrame(
         {
             "segment_row": k,
             "segment": pd.Categorical.from_codes(k, categories=seg.index),
@@ -279,16 +309,21 @@ def check_pairs(layout: Layout, props: pd.DataFrame, settings: CheckSettings) ->
             "cb": cb,
             "line_departure": shape.departure,
             "inside_jump": shape.jump,
-            "exact_factor": np.where(checked, exact.factor, np.nan),
-            "Mcr_exact": np.where(checked, exact.m_cr, np.nan),
-            "exact_elements": np.where(checked, exact.elements, 0),
+            "exact_factor": np.where(checked, solved.factor, np.nan),
+            "Mcr_exact": np.where(checked, solved.m_cr, np.nan),
+            "exact_elements": np.where(checked, solved.elements, 0),
             "exact_note": pd.Categorical.from_codes(
-                np.where(checked, np.where(cantilever, 1, np.where(end_unbraced, 2, 0)), 0).astype(
-                    np.int8
-                ),
+                np.where(
+                    checked,
+                    np.where(cantilever, 1, np.where(end_unbraced, 2, 0 if exact else 3)),
+                    0,
+                ).astype(np.int8),
                 categories=pd.Index(EXACT_NOTES),
             ),
-            "method": settings.gradient,
+            # One word for every row: a categorical, not a million copies of one string.
+            "method": pd.Categorical.from_codes(
+                np.zeros(len(k), dtype=np.int8), categories=pd.Index([settings.gradient])
+            ),
             "factor_basis": basis,
             "factor": factor,
             "Mcr": mcr,
@@ -301,9 +336,7 @@ def check_pairs(layout: Layout, props: pd.DataFrame, settings: CheckSettings) ->
             "utilization_exact": utilization_exact,
             "status": status,
             "flags": flag_labels(flags),
+            **{f"flag_{name}": flag for name, flag in flags.items()},
         },
         copy=False,  # one block per column: no copy of a million-row table into 2D blocks
     )
-    for name, flag in flags.items():
-        out[f"flag_{name}"] = flag
-    return out

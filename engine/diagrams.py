@@ -33,14 +33,15 @@ class Stations:
     """Every force station placed along its member, sorted by (combination, element row, s).
 
     Plain arrays, one entry per station (a table of millions of rows is not worth a DataFrame's
-    copy here).
+    copy here). Where the forces table already is in this order the arrays are its own columns,
+    not copies.
 
     Attributes:
-        combination: load combination code.
+        combination: load combination code (the forces' categorical codes, smallest integer type).
         element: row in ``Members.elements`` (member order).
         s: distance from the member's start [mm].
         M: moment [N·mm], positive when it compresses the top flange.
-        N: axial force [N] with the file's own sign; NaN where the forces have no N column.
+        N: axial force [N] with the file's own sign; ``None`` where the forces have no N column.
     """
 
     combination: np.ndarray
@@ -59,7 +60,9 @@ class SegmentDiagrams:
             ``Segments.table``), ``combination`` (code into ``combinations``), ``compressed``
             (the segment's flange is in compression somewhere), ``demand`` [N·mm] (the largest
             moment that compresses that flange, 0 when none does), ``axial`` [N] (the largest
-            |N| of the run: the file's sign of N is not known; NaN without an N column).
+            |N| of the run: the file's sign of N is not known; NaN without an N column),
+            ``m_highest``, ``m_lowest`` [N·mm] (the run's largest and smallest moment, signed
+            as ``m``).
         x: distance from the segment's start [mm], per station, runs back to back.
         m: moment [N·mm] per station, positive when it compresses the segment's flange (for a
             steep member's "either" segment: the model's own sign).
@@ -81,33 +84,86 @@ def member_stations(model: Model, members: Members) -> Stations:
     """Return every force row placed along its member, sorted for segment runs."""
     f = model.forces
     el = members.elements
-    # Element code (row of model.elements) -> row of members.elements (member order).
-    order_of = np.full(len(model.elements) + 1, -1, dtype=np.int64)
-    order_of[model.elements.index.get_indexer(el.index)] = np.arange(len(el))
+    n_el = len(el)
+    # Per element code (row of model.elements): its row in members.elements (member order) and
+    # what the placement needs, so that each force row costs one gather per quantity.
+    row_of = np.full(len(model.elements), -1, dtype=np.int64)
+    row_of[model.elements.index.get_indexer(el.index)] = np.arange(n_el)
     ecode = f["element"].cat.codes.to_numpy()
-    erow = order_of[ecode]
+    erow = _small_int(row_of, n_el)[ecode]
     # Fraction along the element in the member's direction. Positions at the ends are exactly 0
     # and exactly the length (the readers snap them), so t is exactly 0 or 1 there, and the
     # interpolation below (written so that t = 0 gives s0 and t = 1 gives s1 bit for bit) puts
     # them on the member's node positions.
     t = f["position"].to_numpy() / model.elements["length"].to_numpy()[ecode]
-    t = np.where(el["reversed"].to_numpy()[erow], 1.0 - t, t)
-    s = el["s0"].to_numpy()[erow] * (1.0 - t) + el["s1"].to_numpy()[erow] * t
+    reversed_ = el["reversed"].to_numpy()[row_of]
+    t = np.where(reversed_[ecode], 1.0 - t, t)
+    s = el["s0"].to_numpy()[row_of][ecode] * (1.0 - t) + el["s1"].to_numpy()[row_of][ecode] * t
+    ccode = f["combination"].cat.codes.to_numpy()
+    order = _station_order(ccode, erow, n_el, s, reversed_[ecode])
+    if order is not None:
+        ccode, erow, s, t = ccode[order], erow[order], s[order], t[order]
     at_node = (t == 0.0) | (t == 1.0)
-    ccode = f["combination"].cat.codes.to_numpy().astype(np.int64)
-    # Within one element, stations sorted by s; at a shared node the earlier element comes first.
-    key = ccode * (len(el) + 1) + erow
-    order = np.lexsort((s, key))
-    ccode, erow, s, at_node = ccode[order], erow[order], s[order], at_node[order]
-    member = pd.factorize(el["member"].to_numpy())[0][erow]
+    member = _small_int(pd.factorize(el["member"].to_numpy())[0], n_el)[erow]
     group_start = np.r_[True, (ccode[1:] != ccode[:-1]) | (member[1:] != member[:-1])]
+    moment = f["M"].to_numpy()
+    axial = f["N"].to_numpy(dtype=np.float64) if "N" in f else None
     return Stations(
         combination=ccode,
         element=erow,
         s=_merge_close(s, at_node, group_start),
-        M=f["M"].to_numpy()[order],
-        N=(f["N"].to_numpy(dtype=np.float64) if "N" in f else np.full(len(f), np.nan))[order],
+        M=moment if order is None else moment[order],
+        N=axial if axial is None or order is None else axial[order],
     )
+
+
+def _small_int(values: np.ndarray, top: int) -> np.ndarray:
+    """``values`` as int32 when every value fits (half the memory of each per-row gather)."""
+    return values.astype(np.int32) if top < 2**31 - 1 else values
+
+
+def _station_order(
+    ccode: np.ndarray, erow: np.ndarray, n_el: int, s: np.ndarray, backwards: np.ndarray
+) -> np.ndarray | None:
+    """The order that sorts force rows by (combination, element row, s), ties in file order.
+
+    The same order as ``np.lexsort((s, key))`` (stable), found with one stable sort on the integer
+    key (combination, element row): an export lists the stations of one element in one
+    combination along the element, so within each key the file order already is the order of s,
+    turned round for an element drawn against its member. Only the groups where it is not (rows
+    out of order in the file) are sorted by s, on their own. ``None`` when the rows are in order.
+    """
+    n = len(s)
+    key = ccode.astype(np.int64) * (n_el + 1) + erow
+    if n == 0 or ((np.diff(key) >= 0).all() and not backwards.any()):
+        order = None
+        key_sorted, s_sorted = key, s
+    else:
+        order = np.argsort(key, kind="stable")
+        key_sorted = key[order]
+        if backwards.any():
+            # Each backwards element's block runs from its far end: turn the block round.
+            new = np.r_[True, key_sorted[1:] != key_sorted[:-1]]
+            starts = np.flatnonzero(new)
+            ends = np.r_[starts[1:], n] - 1
+            block = np.cumsum(new) - 1
+            pos = np.arange(n)
+            flip = backwards[order]
+            mirrored = starts[block] + ends[block] - pos
+            order = order[np.where(flip, mirrored, pos)]
+        s_sorted = s[order]
+    same = key_sorted[1:] == key_sorted[:-1]
+    ds = np.diff(s_sorted)
+    # Out of order: s falls within a key, or ties whose file order was turned round.
+    rows = np.arange(n) if order is None else order
+    bad = same & ((ds < 0.0) | ((ds == 0.0) & (rows[1:] < rows[:-1])))
+    if not bad.any():
+        return order
+    order = rows.copy()
+    fix = np.flatnonzero(np.isin(key_sorted, key_sorted[1:][bad]))
+    sub = np.sort(order[fix])  # in file order, which lexsort keeps among ties
+    order[fix] = sub[np.lexsort((s[sub], key[sub]))]
+    return order
 
 
 def _merge_close(s: np.ndarray, at_node: np.ndarray, group_start: np.ndarray) -> np.ndarray:
@@ -142,54 +198,84 @@ def segment_diagrams(model: Model, members: Members, segments: Segments) -> Segm
     """Cut the member diagrams into per-segment, per-combination runs (see module docstring)."""
     st = member_stations(model, members)
     table = segments.table
-    n_seg = len(table)
     combos = [str(c) for c in model.forces["combination"].cat.categories]
-    # Stations are sorted by (combination, member order); segment numbers grow along a member
-    # within each flange set, so each set's runs are already contiguous: no sort is needed.
-    combo_st = st.combination
-    seg_parts, row_parts = [], []
-    for column in ("first", "second"):
-        seg = segments.element_segments[column].to_numpy()[st.element]
-        rows = np.flatnonzero(seg >= 0)
-        seg_parts.append(seg[rows])
-        row_parts.append(rows)
-    seg_all = np.concatenate(seg_parts)
-    row_all = np.concatenate(row_parts)
-    combo = combo_st[row_all]
-    run_key = combo * n_seg + seg_all
-    new_run = np.r_[True, run_key[1:] != run_key[:-1]]
-    if len(row_parts[0]) and len(row_parts[1]):
-        new_run[len(row_parts[0])] = True  # the second set starts new runs
-    starts = np.flatnonzero(new_run)
-    offsets = np.r_[starts, len(run_key)]
-
     flange = table["flange"].to_numpy()
     sign = np.where(flange == "bottom", -1.0, 1.0)
-    seg_of_run = seg_all[starts]
-    m = st.M[row_all] * np.repeat(sign[seg_of_run], np.diff(offsets))
-    x = st.s[row_all] - np.repeat(table["s_start"].to_numpy()[seg_of_run], np.diff(offsets))
-    either = flange[seg_of_run] == "either"
-    peak_pos = np.maximum.reduceat(m, starts) if len(m) else np.zeros(0)
-    peak_abs = np.maximum.reduceat(np.abs(m), starts) if len(m) else np.zeros(0)
-    demand = np.where(either, peak_abs, np.maximum(peak_pos, 0.0))
-    n_abs = np.abs(st.N[row_all]) if st.N is not None else np.full(len(row_all), np.nan)
-    axial = np.fmax.reduceat(n_abs, starts) if len(n_abs) else np.zeros(0)  # fmax: NaN skipped
+    either = flange == "either"
+    s_start = table["s_start"].to_numpy()
+    # Stations are sorted by (combination, member order); segment numbers grow along a member
+    # within each flange set, so each set's runs are already contiguous: no sort is needed. Each
+    # set is cut straight into its slice of x and m; a station is gathered only where a set
+    # leaves some out (steep members have no second set).
+    sets: list[tuple[np.ndarray | None, np.ndarray]] = []
+    for column in ("first", "second"):
+        seg = segments.element_segments[column].to_numpy()[st.element]
+        held = seg >= 0
+        if held.all():
+            sets.append((None, seg))
+        elif held.any():
+            kept = np.flatnonzero(held)
+            sets.append((kept, seg[kept]))
+    total = sum(len(seg) for _, seg in sets)
+    x = np.empty(total)
+    m = np.empty(total)
+    n_abs: np.ndarray | None = None if st.N is None else np.empty(total)
+    run_parts, seg_parts, combo_parts = [], [], []
+    at = 0
+    for rows, seg in sets:
+        part = slice(at, at + len(seg))
+        combo = _pick(st.combination, rows)
+        new_run = np.r_[True, (seg[1:] != seg[:-1]) | (combo[1:] != combo[:-1])]
+        starts = np.flatnonzero(new_run)
+        np.subtract(_pick(st.s, rows), s_start[seg], out=x[part])
+        np.multiply(_pick(st.M, rows), sign[seg], out=m[part])
+        if n_abs is not None and st.N is not None:
+            np.abs(_pick(st.N, rows), out=n_abs[part])
+        run_parts.append(starts + at)
+        seg_parts.append(seg[starts])
+        combo_parts.append(combo[starts])
+        at += len(seg)
+    starts = np.concatenate(run_parts) if run_parts else np.zeros(0, dtype=np.int64)
+    offsets = np.r_[starts, total].astype(np.int64)
+    seg_of_run = np.concatenate(seg_parts).astype(np.int64) if seg_parts else starts
+    if len(starts):
+        peak_pos = np.maximum.reduceat(m, starts)
+        peak_neg = np.minimum.reduceat(m, starts)
+    else:
+        peak_pos = peak_neg = np.zeros(0)
+    # The largest |M| without a second copy of m: max(max M, −min M), exact; + 0.0 turns a −0.0
+    # into the 0.0 that a maximum of |M| gives.
+    peak_abs = np.maximum(peak_pos, -peak_neg) + 0.0
+    demand = np.where(either[seg_of_run], peak_abs, np.maximum(peak_pos, 0.0))
+    if n_abs is None:
+        axial = np.full(len(starts), np.nan)
+    else:
+        axial = np.fmax.reduceat(n_abs, starts) if len(starts) else np.zeros(0)  # NaN skipped
     pairs = pd.DataFrame(
         {
             "segment": seg_of_run,
-            "combination": combo[starts],
+            "combination": (
+                np.concatenate(combo_parts).astype(np.int64) if combo_parts else starts
+            ),
             "compressed": demand > 0.0,
             "demand": demand,
             "axial": axial,
+            "m_highest": peak_pos,
+            "m_lowest": peak_neg,
         }
     )
     return SegmentDiagrams(pairs=pairs, x=x, m=m, offsets=offsets, combinations=combos, stations=st)
 
 
+def _pick(values: np.ndarray, rows: np.ndarray | None) -> np.ndarray:
+    """``values`` at ``rows``; all of them (no copy) where ``rows`` is ``None``."""
+    return values if rows is None else values[rows]
+
+
 def station_key(diagrams: SegmentDiagrams, members: Members) -> np.ndarray:
     """The sort key of the stations, for repeated :func:`member_diagram` look-ups."""
     st = diagrams.stations
-    return st.combination * (len(members.elements) + 1) + st.element
+    return st.combination.astype(np.int64) * (len(members.elements) + 1) + st.element
 
 
 def member_diagram(

@@ -10,6 +10,7 @@ a concentrated moment appears as two stations at the same ``x``.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 from flangewise.readers.model import STATION_MERGE_MM
@@ -35,6 +36,9 @@ MIN_INSIDE_STATIONS = 3
 class Runs:
     """Ragged diagrams as flat arrays (see the module docstring).
 
+    The run number and the inside mask of every station are made once and kept: every factor
+    needs them, and each is a pass over millions of stations.
+
     Attributes:
         x: distance from the run's segment start [mm].
         m: moment [N·mm].
@@ -57,10 +61,43 @@ class Runs:
         """Number of stations per run."""
         return np.diff(self.offsets)
 
-    @property
+    @cached_property
     def run_of_station(self) -> np.ndarray:
         """Run number of every station."""
-        return np.repeat(np.arange(len(self.length)), self.counts)
+        # Native index type: a gather by it (``np.take``) needs no converted copy.
+        return np.repeat(np.arange(len(self.length), dtype=np.intp), self.counts)
+
+    def gather(self, per_run: np.ndarray, out: np.ndarray) -> np.ndarray:
+        """``per_run[run_of_station]`` written into ``out`` (a scratch array over the stations)."""
+        # mode="clip": run numbers are in range, and "raise" would buffer a copy of ``out``.
+        return np.take(per_run, self.run_of_station, out=out, mode="clip")
+
+    @cached_property
+    def inside(self) -> np.ndarray:
+        """Whether each station lies strictly inside its segment (beyond ``END_TOLERANCE_MM``)."""
+        inside = self.x > END_TOLERANCE_MM
+        inside &= self.x < self.spread(self.length) - END_TOLERANCE_MM
+        return inside
+
+    def count(self, mask: np.ndarray) -> np.ndarray:
+        """Return, per run, how many of its stations ``mask`` marks."""
+        if len(self.length) == 0:
+            return np.zeros(0, dtype=np.int64)
+        if self.longest < 256:
+            # Summed as bytes where no run can hold more: no int64 copy of millions of flags.
+            return np.add.reduceat(mask.view(np.uint8), self.starts, dtype=np.uint8).astype(
+                np.int64
+            )
+        return np.add.reduceat(mask, self.starts, dtype=np.int64)
+
+    @cached_property
+    def longest(self) -> int:
+        """The most stations of any run."""
+        return int(self.counts.max()) if len(self.length) else 0
+
+    def spread(self, per_run: np.ndarray) -> np.ndarray:
+        """Repeat one value per run onto each of its stations (``per_run[run_of_station]``)."""
+        return np.repeat(per_run, self.counts)
 
 
 @dataclass(frozen=True)
@@ -139,18 +176,21 @@ def end_moment_omega2(runs: Runs) -> EndMomentResult:
     starts = runs.starts
     last = runs.offsets[1:] - 1
     m_start, m_end = runs.m[starts], runs.m[last]
-    run = runs.run_of_station
-    inside = (runs.x > END_TOLERANCE_MM) & (runs.x < runs.length[run] - END_TOLERANCE_MM)
-    abs_m = np.abs(runs.m)
-    inside_abs = np.where(inside, abs_m, -1.0)
+    distinct = distinct_inside_stations(runs)  # first: its scratch is gone before the next
+    inside = runs.inside
+    inside_abs = np.abs(runs.m)
+    inside_abs[~inside] = -1.0
     inside_peak = np.maximum.reduceat(inside_abs, starts) if len(starts) else np.zeros(0)
     has_inside = inside_peak >= 0.0
-    at = np.where(inside & (inside_abs == inside_peak[run]), runs.x, np.inf)
+    # x where an inside station carries the peak, inf elsewhere (one buffer, reused).
+    at = runs.spread(inside_peak)
+    is_peak = np.equal(inside_abs, at)
+    is_peak &= inside
+    at.fill(np.inf)
+    np.copyto(at, runs.x, where=is_peak)
     inside_peak_at = np.minimum.reduceat(at, starts) if len(starts) else np.zeros(0)
     inside_peak_at = np.where(has_inside, inside_peak_at, np.nan)
     inside_peak = np.maximum(inside_peak, 0.0)
-
-    distinct = distinct_inside_stations(runs)
 
     large = np.maximum(np.abs(m_start), np.abs(m_end))
     zero_ends = large <= 0.0
@@ -180,11 +220,10 @@ def distinct_inside_stations(runs: Runs) -> np.ndarray:
     An inside station counts when its x lies more than ``STATION_MERGE_MM`` beyond the previous
     station's: the same place exported twice, or seen through rounding, is one station.
     """
-    run = runs.run_of_station
-    inside = (runs.x > END_TOLERANCE_MM) & (runs.x < runs.length[run] - END_TOLERANCE_MM)
     new_x = np.r_[True, np.diff(runs.x) > STATION_MERGE_MM]
     new_x[runs.starts] = True
-    return np.bincount(run, weights=inside & new_x, minlength=len(runs.length)).astype(np.int64)
+    new_x &= runs.inside
+    return runs.count(new_x)
 
 
 def moment_at(runs: Runs, fraction: float) -> np.ndarray:
@@ -194,13 +233,56 @@ def moment_at(runs: Runs, fraction: float) -> np.ndarray:
     point, since positions carry float rounding), the larger of the two sides is taken: it makes
     every quarter-point factor smaller, i.e. conservative.
     """
+    return moments_at(runs, (fraction,))[0]
+
+
+def moments_at(runs: Runs, fractions: tuple[float, ...]) -> list[np.ndarray]:
+    """Return :func:`moment_at` of each fraction, sharing the scratch arrays over the stations."""
     n = len(runs.length)
     if n == 0:
-        return np.zeros(0)
-    run = runs.run_of_station
-    at = runs.length * fraction
-    at_station = at[run]
+        return [np.zeros(0) for _ in fractions]
     lo_idx, hi_idx = runs.starts, runs.offsets[1:] - 1
+    # The stations before each point first, in three scratch arrays over the stations; then the
+    # interpolation, per run, once those are gone.
+    at_station = np.empty(len(runs.x))
+    limit = np.empty(len(runs.x))
+    mask = np.empty(len(runs.x), dtype=bool)
+    counted = [_stations_before(runs, f, at_station, limit, mask) for f in fractions]
+    del at_station, limit, mask
+    return [
+        _moment_at(runs, fraction, lo_idx, hi_idx, upto, below)
+        for fraction, (upto, below) in zip(fractions, counted, strict=True)
+    ]
+
+
+def _stations_before(
+    runs: Runs, fraction: float, at_station: np.ndarray, limit: np.ndarray, mask: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """Per run, the stations at or before ``fraction`` of its length, and those before it.
+
+    Both within ``END_TOLERANCE_MM``. ``at_station``, ``limit`` and ``mask`` are scratch arrays
+    over the stations.
+    """
+    runs.gather(runs.length * fraction, out=at_station)
+    # x is sorted within each run, so counting the stations before the point finds it: the same
+    # index a binary search would, in two linear passes.
+    np.add(at_station, END_TOLERANCE_MM, out=limit)
+    upto = runs.count(np.less_equal(runs.x, limit, out=mask))
+    np.subtract(at_station, END_TOLERANCE_MM, out=limit)
+    below = runs.count(np.less(runs.x, limit, out=mask))
+    return upto, below
+
+
+def _moment_at(
+    runs: Runs,
+    fraction: float,
+    lo_idx: np.ndarray,
+    hi_idx: np.ndarray,
+    upto: np.ndarray,
+    below: np.ndarray,
+) -> np.ndarray:
+    """One fraction of :func:`moments_at`, from the counts of :func:`_stations_before`."""
+    at = runs.length * fraction
 
     def side(i_left: np.ndarray) -> np.ndarray:
         i0 = np.clip(i_left, lo_idx, hi_idx)
@@ -212,19 +294,16 @@ def moment_at(runs: Runs, fraction: float) -> np.ndarray:
         w = np.clip(w, 0.0, 1.0)
         return np.abs(runs.m[i0] + w * (runs.m[i1] - runs.m[i0]))
 
-    # x is sorted within each run, so counting the stations before the point finds it: the same
-    # index a binary search would, in two linear passes.
-    upto = np.bincount(run, weights=runs.x <= at_station + END_TOLERANCE_MM, minlength=n)
-    below = np.bincount(run, weights=runs.x < at_station - END_TOLERANCE_MM, minlength=n)
-    after = side(lo_idx + upto.astype(np.int64) - 1)
-    before = side(lo_idx + below.astype(np.int64) - 1)
+    after = side(lo_idx + upto - 1)
+    before = side(lo_idx + below - 1)
     return np.maximum(after, before)
 
 
 def quarter_point_moments(runs: Runs) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """Return (Mmax, Ma, Mb, Mc): the largest |M| and |M| at the quarter, mid and 3/4 points."""
     m_max = np.maximum.reduceat(np.abs(runs.m), runs.starts) if len(runs.length) else np.zeros(0)
-    return m_max, moment_at(runs, 0.25), moment_at(runs, 0.5), moment_at(runs, 0.75)
+    m_a, m_b, m_c = moments_at(runs, (0.25, 0.5, 0.75))
+    return m_max, m_a, m_b, m_c
 
 
 def omega2_quarter_point(

@@ -6,20 +6,26 @@ carry the same section, the node is not a member break, and their user member id
 A member therefore runs straight through T and X junctions and ends at free ends, corners (a portal
 knee), section changes, listed breaks and changes of user member id.
 
-Everything here is vectorized over elements; networkx holds the frame and labels the chains.
+Everything here is vectorized over elements, in numpy: the chains are labelled by a vectorized
+union-find, and nodes lying on elements are found through a grid of cells. networkx (the frame as
+a graph) and scipy's k-d tree are imported only where a caller asks for a graph or the grid gives
+up on a very uneven model: a check does not pay their import.
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
-import networkx as nx
 import numpy as np
 import pandas as pd
+from flangewise.engine.proximity import near_segment_pairs
 from flangewise.readers.errors import InputError, Problem
 from flangewise.readers.model import COINCIDENT_MM, Model, drawn_backwards
 from flangewise.readers.settings import MemberSettings
-from scipy.spatial import cKDTree
+
+if TYPE_CHECKING:
+    import networkx as nx
 
 #: Members steeper than this from horizontal [degrees] have no top or bottom flange (common
 #: practice: a column's flanges face sideways, "top" means nothing there).
@@ -41,19 +47,33 @@ class Members:
         stations: one row per node along a member, in order: ``member``, ``node``, ``s``,
             ``end`` ("start", "end" or ""), ``others`` (how many elements of other members meet
             there), ``supported`` (the node is in the supports table).
-        chains: the networkx graph whose nodes are element row numbers (positions in
-            ``model.elements``) and whose edges join two elements that continue one member
-            through a node; each connected component is one member.
+        continuations: (k, 2) element row numbers (positions in ``model.elements``), one row per
+            pair of elements that continue one member through a node; the chains they make are
+            the members (:meth:`chain_graph`).
     """
 
     table: pd.DataFrame
     elements: pd.DataFrame
     stations: pd.DataFrame
-    chains: nx.Graph
+    continuations: np.ndarray
+
+    def chain_graph(self, n_elements: int) -> nx.Graph:
+        """The networkx graph of the chains: element row numbers joined by continuations.
+
+        Each connected component is one member. Args: ``n_elements``, the model's element count.
+        """
+        import networkx as nx  # only for a caller who wants the graph: a check does not
+
+        graph = nx.Graph()
+        graph.add_nodes_from(range(n_elements))
+        graph.add_edges_from(self.continuations.tolist())
+        return graph
 
 
 def frame_graph(model: Model) -> nx.MultiGraph:
     """Return the frame as a multigraph: node ids as nodes, one edge per element (key = its id)."""
+    import networkx as nx  # only for a caller who wants the graph: a check does not
+
     graph = nx.MultiGraph()
     graph.add_nodes_from(model.nodes.index)
     e = model.elements
@@ -82,7 +102,7 @@ def build_members(model: Model, settings: MemberSettings) -> Members:
 
     _collinear_overlaps(model, settings, si, ei, unit)
     pairs = _continuations(model, settings, si, ei, unit)
-    chain_graph, label = _chains(n, pairs)
+    label = _chains(n, pairs)
     _check_user_ids(model, label)
     n_members = int(label.max()) + 1 if n else 0
 
@@ -130,7 +150,7 @@ def build_members(model: Model, settings: MemberSettings) -> Members:
     members.insert(2, "n_elements", counts)
 
     stations = _stations(model, elements, si, ei, order)
-    return Members(table=members, elements=elements, stations=stations, chains=chain_graph)
+    return Members(table=members, elements=elements, stations=stations, continuations=pairs)
 
 
 def _continuations(
@@ -220,13 +240,9 @@ def _collinear_overlaps(
         return
     xyz = model.nodes[["x", "y", "z"]].to_numpy()
     length = el["length"].to_numpy()
-    tree = cKDTree(xyz)
-    near = tree.query_ball_point((xyz[si] + xyz[ei]) / 2.0, r=length / 2.0, return_sorted=False)
-    counts = np.fromiter((len(c) for c in near), dtype=np.int64, count=n)
-    if counts.sum() == 0:
+    elem, node = _nodes_near(xyz, si, ei, unit, length)
+    if len(elem) == 0:
         return
-    elem = np.repeat(np.arange(n), counts)
-    node = np.concatenate([np.asarray(c, dtype=np.int64) for c in near if len(c)])
     rel = xyz[node] - xyz[si[elem]]
     t = (rel * unit[elem]).sum(axis=1)
     perp = np.linalg.norm(rel - t[:, None] * unit[elem], axis=1)
@@ -254,15 +270,51 @@ def _collinear_overlaps(
         )
 
 
-def _chains(n: int, pairs: np.ndarray) -> tuple[nx.Graph, np.ndarray]:
-    """Return the graph of continuing elements and each element's chain (member) number."""
-    graph = nx.Graph()
-    graph.add_nodes_from(range(n))
-    graph.add_edges_from(pairs.tolist())
-    label = np.empty(n, dtype=np.int64)
-    for k, comp in enumerate(nx.connected_components(graph)):
-        label[list(comp)] = k
-    return graph, label
+def _nodes_near(
+    xyz: np.ndarray, si: np.ndarray, ei: np.ndarray, unit: np.ndarray, length: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """(element, node) pairs that include every node within ``COINCIDENT_MM`` of an element.
+
+    Through the grid of :func:`near_segment_pairs`; on a model too uneven for it, every node
+    within half an element's length of its midpoint, by a k-d tree (imported only then).
+    """
+    found = near_segment_pairs(xyz, xyz[si], unit, length, COINCIDENT_MM)
+    if found is not None:
+        return found
+    from scipy.spatial import cKDTree  # a third of a second: only where the grid gave up
+
+    near = cKDTree(xyz).query_ball_point(
+        (xyz[si] + xyz[ei]) / 2.0, r=length / 2.0, return_sorted=True
+    )
+    counts = np.fromiter((len(c) for c in near), dtype=np.int64, count=len(si))
+    elem = np.repeat(np.arange(len(si)), counts)
+    node = np.concatenate([np.asarray(c, dtype=np.int64) for c in near] + [np.zeros(0, np.int64)])
+    return elem, node
+
+
+def _chains(n: int, pairs: np.ndarray) -> np.ndarray:
+    """Return each element's chain (member) number: the connected components of ``pairs``.
+
+    Chains are numbered in the order of their first element, as a graph library numbers its
+    connected components when the elements are added in row order. Vectorized union-find: every
+    pair hooks the larger of its two labels onto the smaller, then labels jump to their label's
+    label until they settle; an element's label ends as the smallest row of its chain.
+    """
+    label = np.arange(n, dtype=np.int64)
+    a, b = pairs[:, 0].astype(np.int64), pairs[:, 1].astype(np.int64)
+    while len(a):
+        la, lb = label[a], label[b]
+        apart = la != lb
+        if not apart.any():
+            break
+        low = np.minimum(la[apart], lb[apart])
+        np.minimum.at(label, np.maximum(la[apart], lb[apart]), low)
+        while True:
+            jumped = label[label]
+            if np.array_equal(jumped, label):
+                break
+            label = jumped
+    return np.unique(label, return_inverse=True)[1].astype(np.int64)
 
 
 def _check_user_ids(model: Model, label: np.ndarray) -> None:
