@@ -29,6 +29,10 @@ ID_COLUMNS: dict[str, tuple[str, ...]] = {
 #: Tables big enough that identifiers are stored as categories rather than text.
 CATEGORY_TABLES = frozenset({"forces"})
 
+#: Where a reader leaves the cells of numeric columns that hold no finite number, per our
+#: column (:class:`flangewise.readers.csv_parse.Unparsed`), in ``DataFrame.attrs``.
+UNPARSED_KEY = "flangewise_unparsed"
+
 
 def map_columns(
     settings: Settings, table: str, header: list[str], problems: ProblemList

@@ -18,7 +18,7 @@ import os
 from collections.abc import Iterator
 from contextlib import contextmanager
 from pathlib import Path
-from typing import Any
+from typing import Any, Protocol, runtime_checkable
 
 import numpy as np
 import pandas as pd
@@ -315,8 +315,21 @@ def all_finite(col: pa.ChunkedArray) -> bool:
     return finite == len(col) - col.null_count
 
 
+@runtime_checkable
+class CellSource(Protocol):
+    """Where a table came from, able to give any of its cells as the file holds it."""
+
+    def has(self, ours: str) -> bool:
+        """Whether the file has our column ``ours``."""
+        ...
+
+    def cells(self, ours: str, records: np.ndarray) -> list[str]:
+        """Return the cells of our column ``ours`` at ``records`` (0 = first record), as text."""
+        ...
+
+
 class Origin:
-    """Where a table came from: enough to read any of its columns again as text.
+    """Where a CSV table came from: enough to read any of its columns again as text.
 
     Kept in the table's ``attrs``; the file is read again only when a message quotes a cell.
     """
@@ -336,6 +349,14 @@ class Origin:
     def __deepcopy__(self, memo: dict[int, Any]) -> Origin:
         return self  # shared by every frame derived from the table, like Unparsed
 
+    def has(self, ours: str) -> bool:
+        """Whether the file has our column ``ours``."""
+        return ours in self.positions
+
+    def cells(self, ours: str, records: np.ndarray) -> list[str]:
+        """Return the cells of our column ``ours`` at ``records``, exactly as written."""
+        return self.column(ours).take(pa.array(records, pa.int64())).to_pylist()
+
     def column(self, ours: str) -> pa.Array:
         """Return one of our columns as the file's text, one value per record."""
         if ours not in self.texts:
@@ -354,9 +375,10 @@ class Origin:
 def cell_text(
     df: pd.DataFrame, column: str, rows: np.ndarray, limit: int = MAX_PROBLEMS
 ) -> list[str]:
-    """Return cells of a table exactly as the file wrote them, for messages.
+    """Return cells of a table exactly as the file holds them, for messages.
 
-    Numeric columns hold float64 (``50`` reads as 50.0); a problem should quote ``50``.
+    Numeric columns hold float64 (``50`` reads as 50.0); a problem should quote ``50``. A CSV
+    file's cells are quoted as written; a Parquet file's as its typed values print.
 
     Args:
         df: a table from :func:`read_table`, possibly filtered (the index holds record numbers).
@@ -368,7 +390,6 @@ def cell_text(
     pos = np.asarray(rows)
     pos = (np.flatnonzero(pos) if pos.dtype == bool else pos.astype(np.int64))[:limit]
     origin = df.attrs.get(ORIGIN_KEY)
-    if not isinstance(origin, Origin) or column not in origin.positions:
+    if not isinstance(origin, CellSource) or not origin.has(column):
         return [str(v) for v in df[column].to_numpy()[pos]]
-    records = np.asarray(df.index[pos], dtype=np.int64)
-    return origin.column(column).take(pa.array(records)).to_pylist()
+    return origin.cells(column, np.asarray(df.index[pos], dtype=np.int64))

@@ -10,13 +10,14 @@ from __future__ import annotations
 
 import dataclasses
 import difflib
+from collections.abc import Iterable
 from pathlib import Path
 
 import numpy as np
 import pandas as pd
 from flangewise.readers import units
 from flangewise.readers.catalogue import PLATES, PROPERTIES, catalogue, normalise
-from flangewise.readers.csv_parse import cell_text
+from flangewise.readers.csv_parse import ORIGIN_KEY, cell_text
 from flangewise.readers.errors import InputError, Problem, ProblemList
 from flangewise.readers.model import (
     COINCIDENT_MM,
@@ -24,6 +25,7 @@ from flangewise.readers.model import (
     drawn_backwards,
 )
 from flangewise.readers.nearby import close_pairs
+from flangewise.readers.parquet_parse import ParquetOrigin
 from flangewise.readers.ranges import moments_nmm, node_coordinates, section_plates
 from flangewise.readers.settings import (
     FLANGE_WORDS,
@@ -74,7 +76,7 @@ def load_model(
         settings = dataclasses.replace(settings, combinations=tuple(combinations))
     problems = ProblemList()
     raw = {t: read_table(settings, t, problems) for t in TABLES}
-    problems.raise_if_any()
+    _raise_if_any(problems, raw.values())
     tables = {t: df for t, df in raw.items() if df is not None}
     nodes = _nodes(tables["nodes"], settings, problems)
     _breaks(nodes, settings, problems)
@@ -84,7 +86,7 @@ def load_model(
     braces = _braces(tables["braces"], nodes, settings, problems)
     supports = _supports(tables["supports"], nodes, settings, problems)
     forces = _forces(tables["forces"], elements, broken, settings, from_option, problems)
-    problems.raise_if_any()
+    _raise_if_any(problems, raw.values())
     return Model(
         nodes=nodes,
         elements=elements,
@@ -94,6 +96,15 @@ def load_model(
         supports=supports,
         settings=settings,
     )
+
+
+def _raise_if_any(problems: ProblemList, tables: Iterable[pd.DataFrame | None]) -> None:
+    """Raise the problems found; one in a folder of Parquet files names the file and its row."""
+    for df in tables:
+        origin = None if df is None else df.attrs.get(ORIGIN_KEY)
+        if isinstance(origin, ParquetOrigin):
+            problems.items = [origin.relocate(p) for p in problems.items]
+    problems.raise_if_any()
 
 
 def _unknown_ids(

@@ -23,6 +23,7 @@ import pyarrow.compute as pc
 from flangewise.readers.columns import (
     CATEGORY_TABLES,
     ID_COLUMNS,
+    UNPARSED_KEY,
     categorical,
     map_columns,
     text_ids,
@@ -44,16 +45,17 @@ from flangewise.readers.csv_parse import (
     parse_numbers,
 )
 from flangewise.readers.errors import MAX_PROBLEMS, ProblemList
+from flangewise.readers.parquet_parse import is_parquet, read_parquet
 from flangewise.readers.settings import COLUMNS, OPTIONAL_TABLES, Settings
+
+#: Tables that may be a folder of Parquet files (a dataset), not only one file.
+DATASET_TABLES = frozenset({"forces"})
 
 #: What a required table without data rows lacks.
 NO_DATA_ROWS = "data rows below the header: the file has no data rows"
 
 #: Problems of one kind listed per table before the rest are only counted.
 MAX_LISTED = 60
-
-#: Where :func:`read_table` leaves the unparsed cells of numeric columns in ``DataFrame.attrs``.
-UNPARSED_KEY = "flangewise_unparsed"
 
 
 def spreadsheet_rows(index: pd.Index | np.ndarray) -> np.ndarray:
@@ -64,6 +66,8 @@ def spreadsheet_rows(index: pd.Index | np.ndarray) -> np.ndarray:
 def read_table(settings: Settings, table: str, problems: ProblemList) -> pd.DataFrame | None:
     """Read one table into our column names, or note in ``problems`` why it cannot be read.
 
+    A CSV file is parsed by :mod:`csv_parse`; a ``.parquet`` or ``.pq`` file (or, for the
+    forces table, a folder of them) is read by :mod:`parquet_parse`, with the same result.
     Identifier columns come back as text (object dtype; categories for the forces table),
     stripped of surrounding blanks, empty cells missing. Numeric columns come back as float64,
     NaN where a cell is empty or holds no finite number; the latter are kept in
@@ -76,17 +80,22 @@ def read_table(settings: Settings, table: str, problems: ProblemList) -> pd.Data
     """
     path = settings.path(table)
     name = settings.files[table]
+    if path.is_dir() and table in DATASET_TABLES:
+        return read_parquet(settings, table, path, problems)
     if not path.is_file():
-        if table in OPTIONAL_TABLES and table not in settings.named_files:
+        if table in OPTIONAL_TABLES and table not in settings.named_files and not path.exists():
             return pd.DataFrame({c: pd.Series(dtype=object) for c, req in COLUMNS[table] if req})
+        folder = f" ({path} is a folder)" if path.is_dir() else ""
         problems.add(
             name,
             None,
             None,
             None,
-            f"the {table} table as a file at {path} (mapped by [files] {table})",
+            f"the {table} table as a file at {path} (mapped by [files] {table}){folder}",
         )
         return None
+    if is_parquet(path):
+        return read_parquet(settings, table, path, problems)
     with file_bytes(path) as data:
         return _read(settings, table, path, data, problems)
 
