@@ -24,7 +24,12 @@ from flangewise.postproc import exports
 from flangewise.postproc.derivation import derivation_text, find_pair
 from flangewise.postproc.exports import CAUTION
 from flangewise.postproc.files import write_atomic
-from flangewise.postproc.full_table import CSV_ROWS, FULL_TABLE_CHOICES, full_table_names
+from flangewise.postproc.full_table import (
+    CSV_ROWS,
+    FULL_TABLE_CHOICES,
+    SPREADSHEET_ROWS,
+    full_table_names,
+)
 from flangewise.postproc.members_view import members_text, segment_rows
 from flangewise.postproc.names import UnknownName, unknown_names_message
 from flangewise.postproc.provenance import (
@@ -401,6 +406,11 @@ def _run_check(run: _Run) -> dict[str, Any]:
     click.echo(text)
     names = ", ".join(p.name for p in written)
     click.echo(f"Results        : {run.out}/ ({names})")
+    if "segments.csv" in tables and len(seg) > SPREADSHEET_ROWS:
+        click.echo(
+            f"NOTE           : segments.csv has {len(seg):,} rows; a common spreadsheet shows "
+            f"only the first {SPREADSHEET_ROWS:,} (--full-table parquet keeps them all typed)"
+        )
     click.echo(CAUTION)
     return info
 

@@ -109,3 +109,13 @@ def test_flagged_csv_holds_exactly_the_rows_with_a_flag_that_acts(tmp_path):
     info = json.loads((tmp_path / "o" / "summary.json").read_text(encoding="utf-8"))
     # The counts still cover every flag, informative ones included.
     assert info["flags"]["sign-change"] == int(seg["flags"].str.contains("sign-change").sum())
+
+
+def test_a_csv_longer_than_a_spreadsheet_says_so(tmp_path, monkeypatch):
+    # A common spreadsheet shows 1 048 576 rows, the header included (common practice).
+    monkeypatch.setattr("flangewise.postproc.cli.SPREADSHEET_ROWS", 10)
+    result = CliRunner().invoke(
+        main, ["check", str(SHED), "--out", str(tmp_path / "o"), "--full-table", "csv"]
+    )
+    assert result.exit_code == 0, result.output
+    assert "a common spreadsheet shows only the first 10" in result.output
