@@ -81,21 +81,20 @@ def content_end(data: bytes | mmap.mmap) -> int:
 
 
 def is_utf8_text(data: bytes | mmap.mmap, end: int, name: str, problems: ProblemList) -> bool:
-    """Check the whole file is UTF-8 text (not a binary file, not another encoding)."""
+    """Check the whole file is UTF-8 text (not a binary file, not another encoding).
+
+    Called when the header line is no UTF-8 text, or when the parser finds a cell it reads as
+    text that is not: the parser checks every cell it reads as text, so a valid file never pays
+    for a pass over its whole bytes here.
+    """
     expected = "UTF-8 text (save or export the table as CSV in UTF-8)"
     if data.find(b"\x00", 0, end) >= 0:
         problems.add(
             name, None, None, None, f"{expected}; this looks like a binary file or UTF-16 text"
         )
         return False
-    whole = pa.py_buffer(data).slice(0, end)
-    offsets = pa.py_buffer(np.array([0, end], dtype=np.int64))
-    try:
-        # One value holding the whole file: the cast validates UTF-8 in compiled code.
-        pa.Array.from_buffers(pa.large_binary(), 1, [None, offsets, whole]).cast(pa.large_string())
+    if utf8(pa.py_buffer(data).slice(0, end)):
         return True
-    except pa.ArrowInvalid:
-        pass
     raw = bytes(data[:end])
     try:
         raw.decode("utf-8")
@@ -108,16 +107,39 @@ def is_utf8_text(data: bytes | mmap.mmap, end: int, name: str, problems: Problem
     return False
 
 
+def utf8(buffer: pa.Buffer) -> bool:
+    """Whether the bytes are UTF-8 (a cast of one value holding them all: compiled code)."""
+    offsets = pa.py_buffer(np.array([0, buffer.size], dtype=np.int64))
+    try:
+        pa.Array.from_buffers(pa.large_binary(), 1, [None, offsets, buffer]).cast(pa.large_string())
+        return True
+    except pa.ArrowInvalid:
+        return False
+
+
 def header_row(
     data: bytes | mmap.mmap, start: int, end: int, delimiter: str
-) -> tuple[list[str], int]:
-    """Return the header row's fields as written (quotes resolved) and where its line ends."""
+) -> tuple[list[str], int] | None:
+    """Return the header row's fields as written (quotes resolved) and where its line ends.
+
+    ``None`` when the line is no UTF-8 text (or holds a NUL byte: a binary file, or UTF-16).
+    """
     newline = data.find(b"\n", start, end)
     stop = end if newline < 0 else newline
     carriage = data.find(b"\r", start, stop)  # only within the first line: no full scan
     stop = stop if carriage < 0 else carriage
-    line = bytes(data[start:stop]).decode("utf-8")
+    raw = bytes(data[start:stop])
+    if b"\x00" in raw:
+        return None
+    try:
+        line = raw.decode("utf-8")
+    except UnicodeDecodeError:
+        return None
     return next(csv.reader(io.StringIO(line), delimiter=delimiter), []), stop
+
+
+class NotUtf8(Exception):
+    """A cell the parser read as text is not UTF-8: :func:`is_utf8_text` says where."""
 
 
 class Source:
@@ -185,8 +207,13 @@ def parse(
         try:
             return source.read(types, newlines_in_values=newlines), as_text
         except pa.ArrowInvalid as exc:
+            if "invalid UTF8" in str(exc):
+                raise NotUtf8 from None
             if "conversion error" in str(exc) and not as_text:
                 as_text = True
+            elif not utf8(source.buffer):
+                # Rows are located with their text, which must be UTF-8: say that first.
+                raise NotUtf8 from None
             elif _report_ragged(source, name, problems):
                 return None
             elif not newlines:
@@ -389,6 +416,8 @@ def cell_text(
     """
     pos = np.asarray(rows)
     pos = (np.flatnonzero(pos) if pos.dtype == bool else pos.astype(np.int64))[:limit]
+    if len(pos) == 0:
+        return []  # no problem to quote: the file is not read again
     origin = df.attrs.get(ORIGIN_KEY)
     if not isinstance(origin, CellSource) or not origin.has(column):
         return [str(v) for v in df[column].to_numpy()[pos]]

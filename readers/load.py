@@ -125,7 +125,10 @@ def _unknown_ids(
 
 def _known(values: pd.Series, ids: pd.Index) -> pd.Series:
     """Return, per value, whether it is one of ``ids`` (a hash look-up, not a scan)."""
-    found = pd.Index(ids.to_numpy(dtype=object)).get_indexer(values.to_numpy(dtype=object)) >= 0
+    if ids.dtype != object:
+        ids = pd.Index(ids.to_numpy(dtype=object), dtype=object)
+    # An object index keeps its hash table: the nodes' is built once for every table naming them.
+    found = ids.get_indexer(values.to_numpy(dtype=object)) >= 0
     return pd.Series(found, index=values.index)
 
 
@@ -342,8 +345,10 @@ def _elements(
     for c in ("start", "end"):
         _unknown_ids(df, c, nodes.index, file, col(c), "a node id of the nodes table", problems)
     _unknown_sections(df, sections, file, col("section"), problems)
-    start = nodes.reindex(df["start"].to_numpy())[["x", "y", "z"]].to_numpy()
-    end = nodes.reindex(df["end"].to_numpy())[["x", "y", "z"]].to_numpy()
+    # Coordinates of each end; an unknown or missing node (-1) takes the last row, NaN.
+    xyz = np.vstack([nodes[["x", "y", "z"]].to_numpy(), np.full((1, 3), np.nan)])
+    start = xyz[nodes.index.get_indexer(df["start"].to_numpy(dtype=object))]
+    end = xyz[nodes.index.get_indexer(df["end"].to_numpy(dtype=object))]
     d = end - start
     length = np.sqrt((d * d).sum(axis=1))
     same = (df["start"] == df["end"]).to_numpy() & df["start"].notna().to_numpy()

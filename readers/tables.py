@@ -33,6 +33,7 @@ from flangewise.readers.csv_parse import (
     MAX_LISTED_ROWS,
     ORIGIN_KEY,
     STRING,
+    NotUtf8,
     Origin,
     Source,
     Unparsed,
@@ -109,9 +110,10 @@ def _read(
     if end <= start:
         problems.add(name, None, None, None, "a header row naming the columns; the file is empty")
         return None
-    if not is_utf8_text(data, end, name, problems):
-        return None
-    header, header_end = header_row(data, start, end, settings.delimiter)
+    found = header_row(data, start, end, settings.delimiter)
+    if found is None:
+        return _not_text(data, end, name, problems)
+    header, header_end = found
     mapped = map_columns(settings, table, header, problems)
     if mapped is None:
         return None
@@ -124,11 +126,23 @@ def _read(
         pa.py_buffer(data).slice(0, end), len(header), settings.delimiter, settings.decimal
     )
     id_type = DICTIONARY if table in CATEGORY_TABLES else STRING
-    read = parse(source, mapped, ID_COLUMNS[table], name, problems, id_type)
+    try:
+        read = parse(source, mapped, ID_COLUMNS[table], name, problems, id_type)
+    except NotUtf8:
+        return _not_text(data, end, name, problems)
     if read is None:
         return None
     arrow, as_text = read
     return _frame(source, path, table, mapped, arrow, as_text, name, problems)
+
+
+def _not_text(data: bytes | mmap.mmap, end: int, name: str, problems: ProblemList) -> None:
+    """Record where the file stops being UTF-8 text."""
+    if is_utf8_text(data, end, name, problems):
+        # Cannot happen (the parser or the header found bytes that are not UTF-8): a safeguard.
+        problems.add(
+            name, None, None, None, "UTF-8 text (save or export the table as CSV in UTF-8)"
+        )
 
 
 def _frame(
@@ -165,11 +179,14 @@ def _frame(
             columns[ours], empties[ours] = encoded[ours]
         elif as_text:
             columns[ours], empties[ours], unparsed[ours] = parse_numbers(col, source.decimal)
-        elif all_finite(col):
-            columns[ours] = col.to_numpy()
-            empties[ours] = col
         else:
-            needs_text.append(ours)
+            values = col.to_numpy()
+            # Empty cells are nulls, NaN here; any other NaN or infinity was written in the file.
+            if _all_finite(values) or all_finite(col):
+                columns[ours] = values
+                empties[ours] = col
+            else:
+                needs_text.append(ours)
     if needs_text:
         # Infinities or NaN in the file: read those columns again as text to quote each cell.
         text = source.read({position[c]: pa.string() for c in needs_text})
