@@ -74,6 +74,16 @@ def map_columns(
     return mapped if ok else None
 
 
+def finite_everywhere(values: np.ndarray) -> bool:
+    """Whether every value is a finite number (no NaN: no empty or unparsed cell; no infinity).
+
+    A finite sum proves it in one pass without a temporary array; a sum that overflows (huge but
+    finite values) answers no, and the caller takes the long way.
+    """
+    with np.errstate(over="ignore", invalid="ignore"):
+        return bool(np.isfinite(values.sum()))
+
+
 def text_ids(col: pa.ChunkedArray) -> tuple[pd.Series, np.ndarray]:
     """Return an id column as object text, blanks stripped, empty cells missing; and the empties.
 

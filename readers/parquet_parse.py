@@ -28,6 +28,7 @@ from flangewise.readers.columns import (
     ID_COLUMNS,
     UNPARSED_KEY,
     categorical,
+    finite_everywhere,
     map_columns,
     text_ids,
 )
@@ -290,7 +291,7 @@ def _number(col: pa.ChunkedArray) -> pa.ChunkedArray | None:
 def _finite(number: pa.ChunkedArray, stored: pa.ChunkedArray) -> tuple[np.ndarray, Unparsed]:
     """Return the values (NaN where missing or not finite) and the cells not finite."""
     values = number.to_numpy()
-    if all_finite(number):
+    if finite_everywhere(values) or all_finite(number):
         return values, Unparsed(np.zeros(0, np.int64), pa.array([], pa.string()), np.zeros(0, bool))
     values = np.array(values, dtype=np.float64)  # writable
     records = np.flatnonzero(~np.isfinite(values) & ~pc.is_null(number).to_numpy())

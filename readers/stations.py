@@ -10,6 +10,9 @@ are computed once per element and gathered, and the end stations are counted wit
 
 from __future__ import annotations
 
+import os
+from concurrent.futures import ThreadPoolExecutor
+
 import numpy as np
 import pandas as pd
 from flangewise.readers import units
@@ -29,7 +32,7 @@ PLACES = 3
 
 #: Rows per block of the row-wise passes: a block's temporaries stay in the CPU's cache, which
 #: makes the dozen passes over millions of rows several times faster than whole-column ones.
-BLOCK = 1 << 16
+BLOCK = 1 << 17
 
 
 def station_positions(
@@ -79,8 +82,9 @@ def station_positions(
     key = np.empty(n, dtype=np.int32 if skip < np.iinfo(np.int32).max else np.int64)
     # Whether any row may go uncounted (an unknown or broken element, no combination).
     gaps = bool(np.isnan(lengths[:-1]).any() or (n and (ecode.min() < 0 or ccode.min() < 0)))
-    blocks = [(lo, min(lo + BLOCK, n)) for lo in range(0, n, BLOCK)]
-    for lo, hi in blocks:
+
+    def place(lo: int) -> None:
+        hi = min(lo + BLOCK, n)
         _place(
             pos_written[lo:hi],
             ecode[lo:hi],
@@ -93,6 +97,16 @@ def station_positions(
             outside[lo:hi],
             key[lo:hi],
         )
+
+    starts = range(0, n, BLOCK)
+    workers = min(len(starts), os.cpu_count() or 1)
+    if workers > 1:
+        # numpy lets go of the GIL inside each pass: blocks are placed side by side.
+        with ThreadPoolExecutor(max_workers=workers) as pool:
+            list(pool.map(place, starts))
+    else:
+        for lo in starts:
+            place(lo)
     if outside.any():
         rows = spreadsheet_rows(df.index[outside])
         problems.add_many(file, rows, col("position"), cell_text(df, "position", outside), given_as)

@@ -25,6 +25,7 @@ from flangewise.readers.columns import (
     ID_COLUMNS,
     UNPARSED_KEY,
     categorical,
+    finite_everywhere,
     map_columns,
     text_ids,
 )
@@ -182,7 +183,7 @@ def _frame(
         else:
             values = col.to_numpy()
             # Empty cells are nulls, NaN here; any other NaN or infinity was written in the file.
-            if _all_finite(values) or all_finite(col):
+            if finite_everywhere(values) or all_finite(col):
                 columns[ours] = values
                 empties[ours] = col
             else:
@@ -274,16 +275,6 @@ def _unparsed_cells(df: pd.DataFrame, column: str) -> Unparsed:
     return Unparsed(pos, info.texts.filter(pa.array(hit)), info.non_finite[hit])
 
 
-def _all_finite(values: np.ndarray) -> bool:
-    """Whether every value is a finite number (no NaN: no empty or unparsed cell; no infinity).
-
-    A finite sum proves it in one pass without a temporary array; a sum that overflows (huge but
-    finite values) answers no, and the caller takes the long way.
-    """
-    with np.errstate(over="ignore", invalid="ignore"):
-        return bool(np.isfinite(values.sum()))
-
-
 def numeric(
     df: pd.DataFrame,
     column: str,
@@ -313,7 +304,7 @@ def numeric(
         modify it in place).
     """
     s = df[column]
-    if s.dtype == np.float64 and _all_finite(s.to_numpy()):
+    if s.dtype == np.float64 and finite_everywhere(s.to_numpy()):
         return s
     if pd.api.types.is_float_dtype(s.dtype) or (
         pd.api.types.is_integer_dtype(s.dtype) and not pd.api.types.is_bool_dtype(s.dtype)
