@@ -6,7 +6,8 @@ by one and reported with their spreadsheet row. Numbers are read as float64; whe
 column holds anything but finite numbers, its cells are read again as text and parsed here
 (:func:`parse_numbers`), so that each bad cell can be reported with its row and its text as
 written. :func:`cell_text` reads any column again as text, for messages that quote cells. Empty
-lines keep their row, so row numbers stay those of a spreadsheet.
+lines keep their row, so row numbers stay those of a spreadsheet. Every cell read as text is
+checked to be UTF-8 by the parser; the whole file is scanned only to say where it is not.
 """
 
 from __future__ import annotations
@@ -42,6 +43,7 @@ _NON_FINITE_WORDS = frozenset({"nan", "inf", "infinity"})
 #: Where :func:`read_table` leaves what :func:`cell_text` needs to find a cell's text.
 ORIGIN_KEY = "flangewise_origin"
 
+#: Identifiers of a small table, read as text.
 STRING = pa.string()
 
 #: Identifiers of a big table, encoded as they are read: one string per distinct value.

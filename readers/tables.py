@@ -1,9 +1,11 @@
-"""Reading one CSV table: the user's column names in, ours out, every cell read exactly.
+"""Reading one table: the user's column names in, ours out, every cell read exactly.
 
-The file is parsed by :mod:`flangewise.readers.csv_parse`; here its columns are mapped to ours
-and turned into a table. Identifier columns are read as text exactly as written, blanks around
-them stripped: "007", "7" and "7.0" are three ids, "NA" or "null" is a name, and only an empty
-cell is missing. Numeric columns are read as float64; cells holding no finite number are kept as
+A CSV file is parsed by :mod:`flangewise.readers.csv_parse`; here its columns are mapped to ours
+(:mod:`flangewise.readers.columns`) and turned into a table. A Parquet file, or for the forces
+table a folder of Parquet files, is read by :mod:`flangewise.readers.parquet_parse` into the
+same table. Identifier columns are read as text exactly as written, blanks around them
+stripped: "007", "7" and "7.0" are three ids, "NA" or "null" is a name, and only an empty cell
+is missing. Numeric columns are read as float64; cells holding no finite number are kept as
 written and :func:`numeric` reports them. Empty lines keep their row (so row numbers stay those
 of a spreadsheet); an empty line inside a table is a problem, empty lines at the end of the file
 are ignored.

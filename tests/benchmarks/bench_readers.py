@@ -2,10 +2,11 @@
 
 Run: ``python tests/benchmarks/bench_readers.py [--rows 1000000 5000000] [--repeat 5]``.
 
-For each size the synthetic model (``synthetic.py``) is written once as CSV, and its forces table
-once more as Parquet (written by pyarrow from the CSV, types as pyarrow infers them; ids
-dictionary-encoded, as pyarrow writes text). Then, interleaved and best of ``--repeat`` to damp
-the noise of a shared machine, in this process:
+For each size the synthetic model (``synthetic.py``) is written once as CSV, a copy of it with
+N and V columns added to the forces (as real exports have; the readers convert and check them
+too), and each forces table once more as Parquet (written by pyarrow from the CSV, types as
+pyarrow infers them; ids dictionary-encoded, as pyarrow writes text). Then, interleaved and best
+of ``--repeat`` to damp the noise of a shared machine, in this process:
 
 - ``pandas.read_csv(forces.csv)``: the plain read the target is set against;
 - ``pyarrow.csv.read_csv`` of the forces columns with the readers' own types (ids as
@@ -29,6 +30,7 @@ from pathlib import Path
 
 import pandas as pd
 import pyarrow as pa
+import pyarrow.compute as pc
 import pyarrow.csv as pcsv
 import pyarrow.parquet as pq
 
@@ -40,6 +42,22 @@ from flangewise.readers.tables import read_table
 from synthetic import write_model
 
 TABLES = ("nodes", "elements", "sections", "forces", "braces", "supports")
+
+
+def add_axial_and_shear(folder: Path, to: Path) -> None:
+    """Copy the model to ``to`` with N and V columns in its forces (as real exports have)."""
+    to.mkdir()
+    for table in TABLES:
+        if table != "forces":
+            (to / f"{table}.csv").symlink_to(folder / f"{table}.csv")
+    types = {"element": pa.string(), "combination": pa.string()}
+    forces = pcsv.read_csv(
+        folder / "forces.csv", convert_options=pcsv.ConvertOptions(column_types=types)
+    )
+    moment = forces.column("M")
+    forces = forces.append_column("N", pc.round(pc.multiply(moment, -0.3), 3))
+    forces = forces.append_column("V", pc.round(pc.multiply(moment, 0.1), 3))
+    pcsv.write_csv(forces, to / "forces.csv", pcsv.WriteOptions(quoting_style="none"))
 
 
 def write_parquet_copy(folder: Path, copy: Path) -> None:
@@ -59,7 +77,9 @@ def write_parquet_copy(folder: Path, copy: Path) -> None:
 def parse_alone(path: Path) -> pa.Table:
     """The forces columns parsed with the types the readers ask for: the floor under them."""
     ids = pa.dictionary(pa.int32(), pa.string())
-    types = {"element": ids, "combination": ids, "position": pa.float64(), "M": pa.float64()}
+    with path.open(encoding="utf-8") as fh:
+        header = fh.readline().strip().replace('"', "").split(",")
+    types = {c: ids if c in ("element", "combination") else pa.float64() for c in header}
     return pcsv.read_csv(
         path,
         convert_options=pcsv.ConvertOptions(
@@ -85,31 +105,41 @@ def best_of(runs: dict[str, Callable[[], object]], repeat: int) -> dict[str, flo
 
 
 def measure(rows: int, combinations: int, repeat: int) -> None:
-    """Write the model of ``rows`` force rows, time every read, print the table."""
+    """Write the model of ``rows`` force rows, time every read, print the tables."""
     stations = 5
     elements = rows // (combinations * stations)
     with tempfile.TemporaryDirectory() as tmp:
-        folder = Path(tmp) / "csv"
+        base = Path(tmp) / "m"
         t0 = time.perf_counter()
-        written = write_model(folder, elements, combinations, stations)
-        write_parquet_copy(folder, Path(tmp) / "parquet")
+        written = write_model(base, elements, combinations, stations)
+        add_axial_and_shear(base, Path(tmp) / "nv")
         print(f"\n{written:,} force rows written in {time.perf_counter() - t0:.1f} s")
-        forces = folder / "forces.csv"
-        parquet = Path(tmp) / "parquet"
-        model = load_model(folder)
-        assert len(model.forces) == written
-        assert len(load_model(parquet).forces) == written
-        best = best_of(
-            {
-                "plain csv": lambda: pd.read_csv(forces),
-                "parse alone": lambda: parse_alone(forces),
-                "forces table": lambda: forces_table(folder),
-                "load csv": lambda: load_model(folder),
-                "plain parquet": lambda: pd.read_parquet(parquet / "forces.parquet"),
-                "load parquet": lambda: load_model(parquet),
-            },
-            repeat,
-        )
+        for label, folder in (
+            ("element, combination, position, M", base),
+            ("+ N, V", Path(tmp) / "nv"),
+        ):
+            parquet = folder.parent / f"{folder.name}-parquet"
+            write_parquet_copy(folder, parquet)
+            print(f" forces columns: {label}")
+            compare(folder, parquet, written, repeat)
+
+
+def compare(folder: Path, parquet: Path, written: int, repeat: int) -> None:
+    """Time the plain reads and the readers on one model, print the table."""
+    forces = folder / "forces.csv"
+    assert len(load_model(folder).forces) == written
+    assert len(load_model(parquet).forces) == written
+    best = best_of(
+        {
+            "plain csv": lambda: pd.read_csv(forces),
+            "parse alone": lambda: parse_alone(forces),
+            "forces table": lambda: forces_table(folder),
+            "load csv": lambda: load_model(folder),
+            "plain parquet": lambda: pd.read_parquet(parquet / "forces.parquet"),
+            "load parquet": lambda: load_model(parquet),
+        },
+        repeat,
+    )
     plain = best["plain csv"]
     lines = [
         ("pandas.read_csv(forces.csv)", best["plain csv"], plain),
