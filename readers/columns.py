@@ -98,7 +98,9 @@ def text_ids(col: pa.ChunkedArray) -> tuple[pd.Series, np.ndarray]:
     return pd.Series(values, dtype=object), empty
 
 
-def categorical(col: pa.ChunkedArray) -> tuple[pd.Categorical, np.ndarray]:
+def categorical(
+    col: pa.ChunkedArray, by_appearance: bool = False
+) -> tuple[pd.Categorical, np.ndarray]:
     """Encode an id column as a categorical of stripped, non-empty labels; and the empties.
 
     ``col`` holds text or a dictionary of text (the CSV parser encodes big tables' ids as it
@@ -106,6 +108,14 @@ def categorical(col: pa.ChunkedArray) -> tuple[pd.Categorical, np.ndarray]:
     Python string per row. Labels equal after stripping (" B1" and "B1") share one code; a blank
     one is missing, like a missing value. Categories keep the order in which the file first
     names them (the order of load combinations in the results).
+
+    Args:
+        col: the column.
+        by_appearance: whether the dictionaries may hold values no row uses, or hold them in
+            another order than the rows first name them (a Parquet file's own dictionaries, or
+            the values of a folder's key=value names); such categories are dropped and the
+            others put in the order of first appearance. The CSV parser's dictionaries already
+            are.
     """
     if not pa.types.is_dictionary(col.type):
         col = pc.dictionary_encode(col)
@@ -120,6 +130,8 @@ def categorical(col: pa.ChunkedArray) -> tuple[pd.Categorical, np.ndarray]:
         codes = np.asarray(indices.to_numpy(), dtype=np.int32)
         dictionary = pc.fill_null(col.chunk(0).dictionary, "")
         labels = np.asarray(pc.utf8_trim_whitespace(dictionary).to_pylist(), dtype=object)
+        if by_appearance:
+            codes, labels = _by_appearance(codes, labels)
     if len(set(labels.tolist())) == len(labels) and not (labels == "").any():
         cat = pd.Categorical.from_codes(
             codes, categories=pd.Index(labels, dtype=object), validate=False
@@ -133,3 +145,21 @@ def categorical(col: pa.ChunkedArray) -> tuple[pd.Categorical, np.ndarray]:
     codes = np.where(codes >= 0, renumber[np.maximum(codes, 0)], -1).astype(np.int32)
     cat = pd.Categorical.from_codes(codes, categories=pd.Index(merged[keep], dtype=object))
     return cat, codes < 0
+
+
+def _by_appearance(codes: np.ndarray, labels: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Keep only the labels some row uses, in the order the rows first use them.
+
+    Only the first row of each run of equal codes can be a first use: rows come grouped (by
+    element, by combination), so the ordered unique pass looks at few rows.
+    """
+    if len(codes) == 0:
+        return codes, labels[:0]
+    heads = codes[np.concatenate([[0], np.flatnonzero(np.diff(codes)) + 1])]
+    order = pd.unique(heads)
+    order = order[order >= 0]
+    if len(order) == len(labels) and (order == np.arange(len(labels))).all():
+        return codes, labels
+    renumber = np.full(len(labels) + 1, -1, dtype=np.int32)  # the last entry keeps -1 at -1
+    renumber[order] = np.arange(len(order), dtype=np.int32)
+    return renumber[codes], labels[order]

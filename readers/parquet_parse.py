@@ -15,6 +15,7 @@ a folder of files (a dataset), each problem names the file and the row within it
 
 from __future__ import annotations
 
+import re
 from dataclasses import replace
 from pathlib import Path
 from typing import Any
@@ -141,7 +142,10 @@ class _Source:
         fmt = ds.ParquetFileFormat(read_options={"dictionary_columns": dictionary})
         dataset = ds.dataset(self.path, format=fmt, partitioning=self.keys)
         pieces, parts = [], []
-        for fragment in dataset.get_fragments():  # one per file, in the order of their names
+        # One fragment per file, in the natural order of their paths ("C2" before "C10"):
+        # the order in which the combinations of a folder per combination are reported.
+        fragments = sorted(dataset.get_fragments(), key=lambda f: _natural(f.path))
+        for fragment in fragments:
             pieces.append(fragment.to_table(schema=dataset.schema, columns=columns))
             parts.append(Path(fragment.path).relative_to(self.path).as_posix())
         if not pieces:
@@ -150,6 +154,11 @@ class _Source:
             )
         starts = np.cumsum([0] + [len(p) for p in pieces])[:-1]
         return pa.concat_tables(pieces), ParquetOrigin(self.name, {}, parts, starts)
+
+
+def _natural(path: str) -> list[tuple[int, int | str]]:
+    """Sort key of a path with its runs of digits compared as numbers ("C2" before "C10")."""
+    return [(0, int(p)) if p.isdigit() else (1, p) for p in re.split(r"(\d+)", path) if p]
 
 
 def _folder_keys(path: Path) -> Any:
@@ -209,7 +218,8 @@ def read_parquet(
             if bad is not None:
                 _add(origin, problems, bad[0], their_name, bad[1], "text in UTF-8")
                 continue
-            columns[ours] = (categorical if big else text_ids)(_id_text(col, big))[0]
+            text = _id_text(col, big)
+            columns[ours] = (categorical(text, by_appearance=True) if big else text_ids(text))[0]
         else:
             number = _number(col)
             if number is None:

@@ -368,3 +368,26 @@ def test_folder_names_give_text_exactly(model, tmp_path):
     loaded = readers.load_model(folder)
     assert loaded.combinations == ["007", "7"]
     assert np.array_equal(loaded.forces["M"], model.load().forces["M"])
+
+
+def test_folders_come_in_natural_order(model, tmp_path):
+    # "C10" after "C2", as a person numbers them (a plain sort puts C10 first).
+    model.tables["forces"] = [model.tables["forces"][0]] + [
+        [e, "C2" if c == "C1" else "C10", p, m] for e, c, p, m in model.tables["forces"][1:]
+    ]
+    folder = write_dataset(model, tmp_path / "m")
+    assert readers.load_model(folder).combinations == ["C2", "C10"]
+
+
+def test_a_stored_dictionary_gives_combinations_in_the_order_rows_name_them(model, tmp_path):
+    # A dictionary as a dataframe library may store it: sorted otherwise, with a value no row
+    # uses ("Z"). The combinations are those the rows name, in the order they first name them.
+    names = [row[1] for row in model.tables["forces"][1:]]  # C1 x 6, then C2 x 6
+    where = {"Z": 0, "C2": 1, "C1": 2}
+    combos = pa.DictionaryArray.from_arrays(
+        pa.array([where[n] for n in names], pa.int32()), pa.array(["Z", "C2", "C1"])
+    )
+    folder = base_to_parquet(model, tmp_path / "m", {"forces": {"combination": combos}})
+    loaded = readers.load_model(folder)
+    assert loaded.combinations == ["C1", "C2"]
+    assert_same_model(model.load(), loaded)
