@@ -35,12 +35,17 @@ UNPARSED_KEY = "flangewise_unparsed"
 
 
 def map_columns(
-    settings: Settings, table: str, header: list[str], problems: ProblemList
+    settings: Settings,
+    table: str,
+    header: list[str],
+    problems: ProblemList,
+    holder: str = "the header",
 ) -> dict[int, str] | None:
     """Return {position of the file column: our column}, or ``None`` once the reason is noted.
 
     Names are compared without surrounding blanks. A mapped name the header holds twice is a
-    problem (which one is meant?); unmapped columns may repeat.
+    problem (which one is meant?); unmapped columns may repeat. ``holder`` names what holds the
+    column names in messages (a CSV file's header, a Parquet file's columns).
     """
     name = settings.files[table]
     names = [h.strip() for h in header]
@@ -61,16 +66,14 @@ def map_columns(
                 1,
                 theirs,
                 None,
-                f"the column '{theirs.strip()}' once {key}; the header has it in columns "
+                f"the column '{theirs.strip()}' once {key}; {holder} has it in columns "
                 f"{places} (rename the others)",
             )
         elif found:
             mapped[found[0]] = ours
         elif required:
             ok = False
-            problems.add(
-                name, 1, theirs, None, f"a column '{theirs}' {key}; the header has {names}"
-            )
+            problems.add(name, 1, theirs, None, f"a column '{theirs}' {key}; {holder} has {names}")
     return mapped if ok else None
 
 

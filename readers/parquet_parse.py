@@ -189,7 +189,8 @@ def read_parquet(
     except (pa.ArrowException, OSError, ValueError):
         problems.add(name, None, None, None, _not_parquet(path))
         return None
-    mapped = map_columns(settings, table, source.names, problems)
+    holder = "the folder's files' schema" if path.is_dir() else "the file's schema"
+    mapped = map_columns(settings, table, source.names, problems, holder)
     if mapped is None:
         return None
     theirs = {ours: source.names[i] for i, ours in mapped.items()}
