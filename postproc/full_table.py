@@ -64,6 +64,34 @@ def arrow_table(table: pd.DataFrame, notes: dict[str, str]) -> pa.Table:
     return pa.Table.from_arrays(arrow.columns, schema=schema)
 
 
+#: Rows converted to Arrow and written at a time: memory stays bounded by one slice.
+ROW_GROUP = 262_144
+
+
 def write_parquet(path: Path, table: pd.DataFrame, notes: dict[str, str]) -> None:
-    """Write the full table as one Parquet file (zstd-compressed, dictionary-encoded names)."""
-    pq.write_table(arrow_table(table, notes), path, compression="zstd")
+    """Write the full table as one Parquet file, a slice of :data:`ROW_GROUP` rows at a time.
+
+    Names (categorical columns) are dictionary-encoded and carry statistics, so a reader can
+    skip row groups by member or combination; numbers are stored plain (dictionaries and
+    statistics of millions of distinct floats cost more time than they save). Snappy
+    compression: about as small as the others here, and the fastest to write.
+    """
+    names = [c for c in table.columns if isinstance(table[c].dtype, pd.CategoricalDtype)]
+    writer: pq.ParquetWriter | None = None
+    try:
+        for start in range(0, max(len(table), 1), ROW_GROUP):
+            part = arrow_table(table.iloc[start : start + ROW_GROUP], notes)
+            if writer is None:
+                writer = pq.ParquetWriter(
+                    path,
+                    part.schema,
+                    compression="snappy",
+                    use_dictionary=names,
+                    write_statistics=names,
+                )
+            else:  # a slice where a text column is all empty would otherwise type it "null"
+                part = part.cast(writer.schema)
+            writer.write_table(part, row_group_size=ROW_GROUP)
+    finally:
+        if writer is not None:
+            writer.close()
