@@ -21,6 +21,7 @@ import click
 from flangewise.engine.check import CheckResult, check_model
 from flangewise.engine.layout import build_layout
 from flangewise.postproc import exports
+from flangewise.postproc.cluster import ClusterFailed
 from flangewise.postproc.derivation import derivation_text, find_pair
 from flangewise.postproc.exports import CAUTION
 from flangewise.postproc.files import write_atomic
@@ -173,6 +174,12 @@ class _Commands(click.Group):
                 self._internal_error(ctx, exc)
             # Outside the writing of results, a file the system refuses is an input file.
             _stop(EXIT_INPUT, "The input cannot be used:", f"{exc.filename}: {exc.strerror}")
+        except ClusterFailed as exc:
+            _stop(
+                EXIT_INTERNAL,
+                f"The check on the cluster failed: {exc}. This is no result: nothing was written, "
+                "and earlier results in the output folder are unchanged.",
+            )
         except KeyboardInterrupt:
             _stop(EXIT_INTERRUPTED, "Interrupted.")
         except Exception as exc:
@@ -313,6 +320,9 @@ class _Run:
     report: bool = False
     units: str | None = None
     full_table: str | None = None
+    cluster: str | None = None
+    workers: int | None = None
+    worker_memory: str | None = None
 
 
 def _load_and_hash(run: _Run) -> tuple[Model, list[InputFile]]:
@@ -351,6 +361,8 @@ def _selection_line(run: _Run) -> str:
 
 def _run_check(run: _Run) -> dict[str, Any]:
     """Load, check, write and summarise; return the summary (with the run's outcome)."""
+    if run.cluster is not None:
+        return _run_on_cluster(run)
     show = sys.stdout.isatty()
     stages = ["reading", "checking", "writing"]
     with click.progressbar(stages, label="flangewise", file=None if show else _Null()) as bar:
@@ -415,6 +427,72 @@ def _run_check(run: _Run) -> dict[str, Any]:
     return info
 
 
+def _run_on_cluster(run: _Run) -> dict[str, Any]:
+    """Check on a Dask cluster (:mod:`postproc.cluster`); print as the plain check does."""
+    from flangewise.postproc import cluster
+
+    if run.report:
+        _bad_parameter(
+            "report",
+            "the report draws diagrams from the whole model in memory: not with --cluster (run "
+            "a plain check of the members or combinations to report, with --member and "
+            "--combination)",
+        )
+    if run.full_table not in (None, "auto", "parquet"):
+        _bad_parameter(
+            "full_table", "with --cluster the full table is the folder segments.parquet/"
+        )
+    local = run.cluster.strip().lower() == "local"
+    if not local and (run.workers or run.worker_memory):
+        _bad_parameter("workers", "--workers and --worker-memory are for a local cluster only")
+    options = cluster.ClusterOptions(
+        "local" if local else run.cluster.strip(),
+        run.workers or cluster.LOCAL_WORKERS,
+        run.worker_memory or cluster.WORKER_MEMORY,
+    )
+    job = cluster.ClusterRun(
+        run.model,
+        run.settings_file,
+        run.out,
+        options,
+        run.members,
+        run.combinations,
+        run.method,
+        run.units,
+        tuple(click.get_current_context().meta.get(_ARGUMENTS, [])),
+    )
+    bar: Any = None
+
+    def progress(done: int, total: int) -> None:
+        nonlocal bar
+        if bar is None:
+            bar = click.progressbar(length=total, label="flangewise (cluster)")
+            bar.__enter__()
+        bar.update(1)
+
+    try:
+        outcome = cluster.check_on_cluster(job, progress if sys.stdout.isatty() else None)
+    except cluster.ClusterUnavailable as exc:
+        _bad_parameter(exc.param, str(exc))
+    except UnknownName as exc:
+        _bad_parameter(exc.param, exc.message)
+    except cluster.NotWritten as exc:
+        raise ResultsNotWritten(OSError(str(exc))) from exc
+    finally:
+        if bar is not None:
+            bar.__exit__(None, None, None)
+    info = outcome.info
+    click.echo(exports.summary_text(info))
+    ran = info["provenance"]["cluster"]
+    click.echo(
+        f"Run on         : {ran['run on']}; {ran['partitions']} partitions in {ran['tasks']} tasks"
+    )
+    names = ", ".join(p.name + ("/" if p.is_dir() else "") for p in outcome.written)
+    click.echo(f"Results        : {run.out}/ ({names}; {outcome.rows:,} rows in the full table)")
+    click.echo(CAUTION)
+    return info
+
+
 def _settings_line(model: Model) -> str:
     s = model.settings
     u = s.units
@@ -472,6 +550,24 @@ class _Null:
     help="Exit with status 0 even when the results are not shown to pass (the summary still "
     "says why).",
 )
+@click.option(
+    "--cluster",
+    metavar="local|ADDRESS",
+    help="Check on a Dask cluster, partition by partition: 'local' (worker processes on this "
+    "machine) or an existing cluster's scheduler address (tcp://host:8786). The forces must be "
+    "a folder partitioned by load combination (see the partition command); the full table is "
+    'written as the folder segments.parquet/. Needs the extra: pip install "flangewise[cluster]".',
+)
+@click.option(
+    "--workers",
+    type=click.IntRange(1),
+    help="Worker processes of a local cluster (default 2).",
+)
+@click.option(
+    "--worker-memory",
+    metavar="SIZE",
+    help="Memory limit of each worker of a local cluster, such as 1GiB or 800MB (default 1GiB).",
+)
 def check(
     model: Path,
     settings_file: Path | None,
@@ -483,6 +579,9 @@ def check(
     full_table: str | None,
     report: bool,
     exit_zero: bool,
+    cluster: str | None,
+    workers: int | None,
+    worker_memory: str | None,
 ) -> None:
     """Check every unbraced segment of MODEL in every load combination.
 
@@ -503,10 +602,51 @@ def check(
         report,
         units_choice,
         full_table.lower() if full_table else None,
+        cluster,
+        workers,
+        worker_memory,
     )
     info = _run_check(run)
     if not info["result"]["shown to pass"] and not exit_zero:
         sys.exit(EXIT_NOT_SHOWN_TO_PASS)
+
+
+@main.command()
+@model_argument
+@settings_option
+@click.option(
+    "--out",
+    type=click.Path(file_okay=False, path_type=Path),
+    required=True,
+    help="The folder to write (it must not exist yet, or be empty).",
+)
+def partition(model: Path, settings_file: Path | None, out: Path) -> None:
+    """Turn MODEL's forces CSV file into a folder of Parquet files, one folder per combination.
+
+    Writes OUT/<combination column>=<name>/part-0.parquet, the layout 'check --cluster' reads,
+    in bounded memory. The file is read through the settings (columns, delimiter, decimal mark)
+    and every cell is checked as 'check' checks it; nothing is written unless the whole file
+    converts. Then name the folder in the settings file: [files] forces = "OUT".
+    """
+    from flangewise.postproc.convert import partition_forces as convert
+    from flangewise.postproc.partition_check import NotWritten
+
+    try:
+        done = convert(model, settings_file, out)
+    except FileExistsError as exc:
+        _bad_parameter("out", str(exc))
+    except NotWritten as exc:
+        raise ResultsNotWritten(OSError(str(exc))) from exc
+    try:
+        shown = Path(os.path.relpath(out.resolve(), model.resolve())).as_posix()
+    except ValueError:  # another drive
+        shown = str(out.resolve())
+    click.echo(
+        f"Forces         : {done.source} ({done.rows:,} rows, {done.combinations} load "
+        f"combinations)"
+    )
+    click.echo(f"Written        : {out}/{done.key}=<name>/ ({done.files} Parquet files)")
+    click.echo(f'Settings       : name the folder in [files]: forces = "{shown}"')
 
 
 @main.command()

@@ -309,7 +309,6 @@ def summary(
     """
     # Masks and a few picked rows only: no copy of the (possibly million-row) table.
     checked = _status_in(segments, *CHECKED)
-    util = segments["utilization"].to_numpy(dtype=np.float64)
     worst: dict[str, Any] | None = None
     if checked.any():
         w = segments.iloc[worst_row(segments, checked)]
@@ -327,16 +326,7 @@ def summary(
     with_forces = _names_present(segments["member"])
     no_forces = [m for m in scope if m not in with_forces]  # a few names: natural order below
     no_forces = [no_forces[i] for i in np.argsort(natural_rank(no_forces), kind="stable")]
-    counts = {
-        "pairs checked": int(checked.sum()),
-        "pairs not critical": int(_status_in(segments, "not critical").sum()),
-        "pairs not checked (class 4)": int(_status_in(segments, "not checked").sum()),
-        "pairs over 1.0": int(_status_in(segments, "over").sum()),
-        "pairs to verify (cantilever effective length)": int(
-            _status_in(segments, "verify length").sum()
-        ),
-        "pairs without a finite utilization": int((checked & ~np.isfinite(util)).sum()),
-    }
+    counts = pair_counts(segments)
     return {
         "tool": f"flangewise {version('flangewise')}",
         "model": str(model_folder),
@@ -359,6 +349,25 @@ def summary(
         "flags": flag_counts(segments),
         "flag meanings": FLAGS,
         "caution": CAUTION,
+    }
+
+
+def pair_counts(segments: pd.DataFrame) -> dict[str, int]:
+    """The pairs of each outcome (checked, not critical, over 1.0 ...): what :func:`outcome` weighs.
+
+    Counts add up: the counts of a table split in parts are the sums of the parts' counts.
+    """
+    checked = _status_in(segments, *CHECKED)
+    util = segments["utilization"].to_numpy(dtype=np.float64)
+    return {
+        "pairs checked": int(checked.sum()),
+        "pairs not critical": int(_status_in(segments, "not critical").sum()),
+        "pairs not checked (class 4)": int(_status_in(segments, "not checked").sum()),
+        "pairs over 1.0": int(_status_in(segments, "over").sum()),
+        "pairs to verify (cantilever effective length)": int(
+            _status_in(segments, "verify length").sum()
+        ),
+        "pairs without a finite utilization": int((checked & ~np.isfinite(util)).sum()),
     }
 
 
@@ -517,11 +526,12 @@ def outcome_line(result: dict[str, Any]) -> str:
 
 def write_results(
     out: Path,
-    tables: dict[str, pd.DataFrame],
+    tables: dict[str, pd.DataFrame | None],
     info: dict[str, Any],
     before_replace: Callable[[str], None] | None = None,
     texts: dict[str, str] | None = None,
     notes: dict[str, str] | None = None,
+    stage: Path | None = None,
 ) -> list[Path]:
     """Write every result file into ``out`` so that a failure leaves the old results intact.
 
@@ -536,22 +546,25 @@ def write_results(
     Args:
         out: the results folder (created if needed).
         tables: file name -> table: a CSV file, or a Parquet file for a name ending in
-            ``.parquet``.
+            ``.parquet``; ``None``: the file (or folder) is already complete in ``stage``.
         info: the summary, written as JSON.
         before_replace: called with each file name just before it replaces (or, for an earlier
             file this run does not write, removes) the old one (a hook for tests that inject a
             failure).
         texts: file name -> text, for other files (the HTML report).
         notes: key -> text stored in a Parquet file's metadata (units, sign convention, caution).
+        stage: the staging folder (:func:`make_stage`) when some files were written into it
+            beforehand; it is removed in the end, whatever happens.
     """
-    out.mkdir(parents=True, exist_ok=True)
-    stage = Path(tempfile.mkdtemp(prefix=".flangewise-", dir=out))
+    stage = stage if stage is not None else make_stage(out)
     moved: list[str] = []  # old files parked in the staging folder, to put back on failure
     texts = texts or {}
     names = [*tables, *texts, "summary.json"]
-    stale = [n for n in OUR_FILES if n not in names and (out / n).is_file()]
+    stale = [n for n in OUR_FILES if n not in names and (out / n).exists()]
     try:
         for name, table in tables.items():
+            if table is None:
+                continue  # written into the staging folder already
             if name.endswith(".parquet"):
                 write_parquet(stage / name, table, notes or {})
             else:
@@ -578,13 +591,27 @@ def write_results(
         except BaseException:
             for name in names:
                 if name not in moved and not (stage / name).exists():
-                    (out / name).unlink(missing_ok=True)
+                    _remove(out / name)
             for name in moved:  # put the earlier results back, as a set
                 os.replace(stage / f"old-{name}", out / name)
             raise
         return [out / name for name in names]
     finally:
         shutil.rmtree(stage, ignore_errors=True)
+
+
+def make_stage(out: Path) -> Path:
+    """Make a staging folder inside ``out`` (created if needed) for :func:`write_results`."""
+    out.mkdir(parents=True, exist_ok=True)
+    return Path(tempfile.mkdtemp(prefix=".flangewise-", dir=out))
+
+
+def _remove(path: Path) -> None:
+    """Remove a file, or a folder of result files (a dataset), if it is there."""
+    if path.is_dir() and not path.is_symlink():
+        shutil.rmtree(path)
+    else:
+        path.unlink(missing_ok=True)
 
 
 #: Significant figures of every number in the result CSV files.
@@ -625,17 +652,10 @@ def write_csv(path: Path, table: pd.DataFrame, digits: int = DIGITS, chunk: int 
     rows are formatted on all cores at once (pyarrow lets go of the GIL) and written in order; only
     a few chunks are ever held in memory. Missing values are empty cells.
     """
-    floats = [c for c in table.columns if pd.api.types.is_float_dtype(table[c].dtype)]
     starts = list(range(0, max(len(table), 1), chunk))
 
     def formatted(i: int) -> bytes:
-        part = table.iloc[starts[i] : starts[i] + chunk].copy()
-        for column in floats:
-            part[column] = significant(part[column].to_numpy(dtype=np.float64), digits)
-        sink = pa.BufferOutputStream()
-        options = pacsv.WriteOptions(include_header=i == 0)
-        pacsv.write_csv(pa.Table.from_pandas(part, preserve_index=False), sink, options)
-        return sink.getvalue().to_pybytes()
+        return csv_text(table.iloc[starts[i] : starts[i] + chunk], i == 0, digits)
 
     workers = os.cpu_count() or 1
     with path.open("wb") as fh, ThreadPoolExecutor(max_workers=workers) as pool:
@@ -644,6 +664,22 @@ def write_csv(path: Path, table: pd.DataFrame, digits: int = DIGITS, chunk: int 
             batch = range(first, min(first + 2 * workers, len(starts)))
             for text in pool.map(formatted, batch):
                 fh.write(text)
+
+
+def csv_text(part: pd.DataFrame, header: bool, digits: int = DIGITS) -> bytes:
+    """Rows of a result table as CSV text (UTF-8), floats to ``digits`` significant figures.
+
+    The text of rows does not depend on the rows around them: tables written in parts and joined
+    read the same as one written whole.
+    """
+    part = part.copy()
+    for column in part.columns:
+        if pd.api.types.is_float_dtype(part[column].dtype):
+            part[column] = significant(part[column].to_numpy(dtype=np.float64), digits)
+    sink = pa.BufferOutputStream()
+    options = pacsv.WriteOptions(include_header=header)
+    pacsv.write_csv(pa.Table.from_pandas(part, preserve_index=False), sink, options)
+    return sink.getvalue().to_pybytes()
 
 
 def _write(path: Path, write: Callable[[IO[str]], None]) -> None:

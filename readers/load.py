@@ -33,6 +33,7 @@ from flangewise.readers.settings import (
     Settings,
     read_settings,
 )
+from flangewise.readers.source_rows import with_source_rows
 from flangewise.readers.stations import station_positions
 from flangewise.readers.tables import (
     MAX_LISTED,
@@ -86,7 +87,7 @@ def load_model(
     braces = _braces(tables["braces"], nodes, settings, problems)
     supports = _supports(tables["supports"], nodes, settings, problems)
     forces = _forces(tables["forces"], elements, broken, settings, from_option, problems)
-    _raise_if_any(problems, raw.values())
+    _raise_if_any(problems, raw.values(), settings)
     return Model(
         nodes=nodes,
         elements=elements,
@@ -98,12 +99,23 @@ def load_model(
     )
 
 
-def _raise_if_any(problems: ProblemList, tables: Iterable[pd.DataFrame | None]) -> None:
-    """Raise the problems found; one in a folder of Parquet files names the file and its row."""
+def _raise_if_any(
+    problems: ProblemList,
+    tables: Iterable[pd.DataFrame | None],
+    settings: Settings | None = None,
+) -> None:
+    """Raise the problems found; one in a folder of Parquet files names the file and its row.
+
+    With ``settings``, a problem in a folder converted from a CSV file also names the row the
+    CSV file had (:func:`with_source_rows`).
+    """
     for df in tables:
         origin = None if df is None else df.attrs.get(ORIGIN_KEY)
         if isinstance(origin, ParquetOrigin):
             problems.items = [origin.relocate(p) for p in problems.items]
+    if problems and settings is not None and settings.path("forces").is_dir():
+        forces = settings.path("forces")
+        problems.items = with_source_rows(problems.items, forces, settings.files["forces"])
     problems.raise_if_any()
 
 
