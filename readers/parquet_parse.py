@@ -220,7 +220,12 @@ def read_parquet(
                 _add(origin, problems, bad[0], their_name, bad[1], "text in UTF-8")
                 continue
             text = _id_text(col, big)
-            columns[ours] = (categorical(text, by_appearance=True) if big else text_ids(text))[0]
+            if big:
+                # The order of combinations is reported; element codes are re-based onto the
+                # elements table when the forces are checked, so their order never shows.
+                columns[ours] = categorical(text, by_appearance=ours != "element")[0]
+            else:
+                columns[ours] = text_ids(text)[0]
         else:
             number = _number(col)
             if number is None:
