@@ -140,7 +140,7 @@ def _known(values: pd.Series, ids: pd.Index) -> pd.Series:
     if ids.dtype != object:
         ids = pd.Index(ids.to_numpy(dtype=object), dtype=object)
     # An object index keeps its hash table: the nodes' is built once for every table naming them.
-    found = ids.get_indexer(values.to_numpy(dtype=object)) >= 0
+    found = ids.get_indexer(pd.Index(values.to_numpy(dtype=object), dtype=object)) >= 0
     return pd.Series(found, index=values.index)
 
 
@@ -359,8 +359,8 @@ def _elements(
     _unknown_sections(df, sections, file, col("section"), problems)
     # Coordinates of each end; an unknown or missing node (-1) takes the last row, NaN.
     xyz = np.vstack([nodes[["x", "y", "z"]].to_numpy(), np.full((1, 3), np.nan)])
-    start = xyz[nodes.index.get_indexer(df["start"].to_numpy(dtype=object))]
-    end = xyz[nodes.index.get_indexer(df["end"].to_numpy(dtype=object))]
+    start = xyz[nodes.index.get_indexer(pd.Index(df["start"].to_numpy(dtype=object), dtype=object))]
+    end = xyz[nodes.index.get_indexer(pd.Index(df["end"].to_numpy(dtype=object), dtype=object))]
     d = end - start
     length = np.sqrt((d * d).sum(axis=1))
     same = (df["start"] == df["end"]).to_numpy() & df["start"].notna().to_numpy()

@@ -115,7 +115,8 @@ def _read(
         return None
     found = header_row(data, start, end, settings.delimiter)
     if found is None:
-        return _not_text(data, end, name, problems)
+        _not_text(data, end, name, problems)
+        return None
     header, header_end = found
     mapped = map_columns(settings, table, header, problems)
     if mapped is None:
@@ -132,7 +133,8 @@ def _read(
     try:
         read = parse(source, mapped, ID_COLUMNS[table], name, problems, id_type)
     except NotUtf8:
-        return _not_text(data, end, name, problems)
+        _not_text(data, end, name, problems)
+        return None
     if read is None:
         return None
     arrow, as_text = read
