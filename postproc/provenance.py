@@ -45,11 +45,25 @@ class InputFile:
 def input_paths(settings: Settings) -> list[Path]:
     """Every file the readers read for these settings: the settings file, then each table's.
 
-    An optional table whose file is absent is not read, so it is not listed.
+    An optional table whose file is absent is not read, so it is not listed. A table given as a
+    folder (forces as Parquet files) lists every file in it that the readers read.
     """
     paths = [settings.source] if settings.source is not None else []
-    paths += [settings.path(t) for t in TABLES if settings.path(t).is_file()]
+    for table in TABLES:
+        path = settings.path(table)
+        if path.is_file():
+            paths.append(path)
+        elif path.is_dir():  # a folder of Parquet files (forces): every file the readers read
+            paths += sorted(
+                (f for f in path.rglob("*") if f.is_file() and not _hidden(f.relative_to(path))),
+                key=lambda f: str(f.relative_to(path)),
+            )
     return list(dict.fromkeys(paths))  # one file named for two tables is read, and listed, once
+
+
+def _hidden(relative: Path) -> bool:
+    """A path the readers skip in a folder of Parquet files: a part starting with _ or ."""
+    return any(part.startswith(("_", ".")) for part in relative.parts)
 
 
 def hash_file(path: Path, keep: bool = False) -> InputFile:

@@ -154,3 +154,26 @@ def test_a_file_that_changes_while_it_is_read_stops_the_run(tmp_path, monkeypatc
     assert "forces.csv" in result.stderr
     assert "it changed during this run" in result.stderr
     assert not out.exists()
+
+
+def test_a_forces_folder_records_every_parquet_file_it_holds(tmp_path):
+    import pandas as pd
+
+    folder = _copy(tmp_path)
+    forces = pd.read_csv(folder / "forces.csv", dtype={"element": str, "combination": str})
+    (folder / "forces.csv").unlink()
+    parts = folder / "forces"
+    for i, (name, rows) in enumerate(forces.groupby("combination", sort=False)):
+        part = parts / f"combination={name}"
+        part.mkdir(parents=True)
+        rows.drop(columns="combination").to_parquet(part / f"part-{i}.parquet", index=False)
+    (parts / "_SUCCESS").write_text("", encoding="utf-8")  # skipped by the readers, and here
+    (folder / "flangewise.toml").write_text('[files]\nforces = "forces"\n', encoding="utf-8")
+    record = _check(str(folder), "--out", str(tmp_path / "res"))
+    paths = {f["path"] for f in record["inputs"]}
+    written = {str(p.relative_to(folder)) for p in parts.rglob("*.parquet")}
+    assert len(written) == 2 and written <= paths
+    assert "forces/_SUCCESS" not in paths
+    for f in record["inputs"]:
+        if f["path"] in written:
+            assert f["sha256"] == hashlib.sha256((folder / f["path"]).read_bytes()).hexdigest()
