@@ -407,7 +407,11 @@ def _run_check(run: _Run) -> dict[str, Any]:
             full_table_names(len(seg), run.full_table or loaded.settings.full_table), seg
         )
         tables["governing.csv"] = exports.governing_table(seg)
-        tables["flagged.csv"] = exports.flagged_table(seg)
+        # A full table in Parquet only: flagged.csv keeps the columns a reviewer reads first.
+        narrow = "segments.csv" not in tables
+        tables["flagged.csv"] = exports.flagged_table(
+            seg, exports.reading_columns(units) if narrow else None
+        )
         notes = {
             "units": units.words,
             "sign": f"M start, M end: {exports.SIGN}",

@@ -148,6 +148,33 @@ def segment_table(result: CheckResult, units: ShownUnits = SI) -> pd.DataFrame:
     )
 
 
+def reading_columns(units: ShownUnits) -> list[str]:
+    """The columns a reviewer reads first: which pair, its diagram's ends, factor and result.
+
+    ``flagged.csv`` of a run whose full table is Parquet holds only these (every number of those
+    pairs is in the Parquet file); a CSV a person reads stays narrow enough to read.
+    """
+    return [
+        "member",
+        "segment",
+        "flange",
+        "combination",
+        "from node",
+        "to node",
+        f"Lu [{units.length}]",
+        m_start_header(units),
+        m_end_header(units),
+        f"|M| max [{units.moment}]",
+        "factor used",
+        "exact factor",
+        f"Mr [{units.moment}]",
+        f"demand [{units.moment}]",
+        "utilization",
+        "status",
+        "flags",
+    ]
+
+
 def select_members(result: CheckResult, members: Sequence[str]) -> CheckResult:
     """The results of ``members`` only: what every output of a ``--member`` run describes."""
     r = result.results
@@ -185,11 +212,16 @@ def natural_rank(names: Sequence[str] | pd.Index) -> np.ndarray:
 
 
 def _rank_of(column: pd.Series) -> np.ndarray:
-    """Per row, the natural rank of its text (through the categories when there are)."""
+    """Per row, the natural rank of its text (through the categories when there are).
+
+    Only the categories the rows use are ranked: a few tied rows of a large table do not pay
+    for ranking every name of the model.
+    """
     if isinstance(column.dtype, pd.CategoricalDtype):
         codes = column.cat.codes.to_numpy()
-        ranks = natural_rank(column.cat.categories)
-        return np.where(codes >= 0, ranks[np.maximum(codes, 0)], -1)
+        used, inverse = np.unique(codes, return_inverse=True)
+        ranks = natural_rank(column.cat.categories[np.maximum(used, 0)])
+        return np.where(codes >= 0, ranks[inverse.reshape(-1)], -1)
     values = column.astype(str).to_numpy()
     unique, inverse = np.unique(values, return_inverse=True)
     return natural_rank(unique)[inverse]
@@ -237,8 +269,8 @@ def _names_present(column: pd.Series) -> set[str]:
     """The distinct names of a column, through its categories when it has them."""
     if isinstance(column.dtype, pd.CategoricalDtype):
         codes = np.unique(column.cat.codes.to_numpy())
-        return {str(column.cat.categories[c]) for c in codes if c >= 0}
-    return {str(v) for v in column.unique()}
+        return set(column.cat.categories[codes[codes >= 0]].astype(str))
+    return set(pd.unique(column.astype(str)))
 
 
 def governing_table(segments: pd.DataFrame) -> pd.DataFrame:
@@ -251,20 +283,43 @@ def governing_table(segments: pd.DataFrame) -> pd.DataFrame:
     checked = _status_in(segments, *CHECKED)
     unchecked = _status_in(segments, "not checked")
     # One class per row: checked rows first, then "not checked", then "not critical"; within a
-    # class, rows in worst order. The first row of each member in that order governs.
-    kind = np.where(checked, 0, np.where(unchecked, 1, 2))
-    order = worst_order(segments)
-    order = order[np.argsort(kind[order], kind="stable")]
-    member = _rank_of(segments["member"])
-    first = order[~pd.Series(member[order]).duplicated().to_numpy()]
-    gov = segments.iloc[first[np.argsort(member[first], kind="stable")]]
+    # class, rows in worst order. The first row of each member in that order governs. Only the
+    # candidates are ordered: per member, the rows of its best class at its highest utilization.
+    kind = np.where(checked, 0, np.where(unchecked, 1, 2)).astype(np.int8)
+    member, n_members = _codes(segments["member"])
+    best = np.full(n_members, 3, dtype=np.int8)
+    np.minimum.at(best, member, kind)
+    in_best = kind == best[member]
+    util = segments["utilization"].to_numpy(dtype=np.float64)
+    util = np.where(in_best & np.isfinite(util), util, -np.inf)
+    top = np.full(n_members, -np.inf)
+    np.maximum.at(top, member, util)
+    candidates = np.flatnonzero(in_best & (util == top[member]))
+    part = segments.iloc[candidates]
+    order = worst_order(part)
+    order = order[np.argsort(kind[candidates][order], kind="stable")]
+    rank = _rank_of(part["member"])
+    first = order[~pd.Series(rank[order]).duplicated().to_numpy()]
+    gov = part.iloc[first[np.argsort(rank[first], kind="stable")]]
     return gov.reset_index(drop=True)
 
 
-def flagged_table(segments: pd.DataFrame) -> pd.DataFrame:
+def _codes(column: pd.Series) -> tuple[np.ndarray, int]:
+    """Per row, a code 0..n-1 of its name, and n (through the categories when there are)."""
+    if isinstance(column.dtype, pd.CategoricalDtype):
+        return column.cat.codes.to_numpy().astype(np.int64), len(column.cat.categories)
+    codes, uniques = pd.factorize(column)
+    return codes.astype(np.int64), len(uniques)
+
+
+def flagged_table(segments: pd.DataFrame, columns: Sequence[str] | None = None) -> pd.DataFrame:
     """Every pair carrying a flag that changes or questions its result (not :data:`INFORMATIVE`).
 
     Worked out once per distinct combination of flags (the categories), not per row.
+
+    Args:
+        segments: the segment table.
+        columns: the columns to keep (:func:`reading_columns`); all by default.
     """
     flags = segments["flags"]
     if not isinstance(flags.dtype, pd.CategoricalDtype):
@@ -275,7 +330,8 @@ def flagged_table(segments: pd.DataFrame) -> pd.DataFrame:
     )
     codes = flags.cat.codes.to_numpy()
     keep = np.where(codes >= 0, acting[np.maximum(codes, 0)] if len(acting) else False, False)
-    return segments[keep].reset_index(drop=True)
+    picked = segments.loc[keep, list(columns) if columns is not None else segments.columns]
+    return picked.reset_index(drop=True)
 
 
 def _status_in(segments: pd.DataFrame, *words: str) -> np.ndarray:

@@ -16,7 +16,7 @@ import pyarrow.parquet as pq
 from click.testing import CliRunner
 from flangewise.postproc import exports, full_table
 from flangewise.postproc.cli import main, sample_path
-from flangewise.postproc.shown_units import US
+from flangewise.postproc.shown_units import SI, US
 
 SHED = sample_path("industrial_shed")
 
@@ -39,13 +39,15 @@ def test_a_small_model_gets_its_full_table_as_csv_only(tmp_path):
     assert "segments.csv" in names and "segments.parquet" not in names
 
 
-def test_parquet_reads_back_equal_to_the_csv(tmp_path):
+def test_parquet_reads_back_equal_to_the_csv(tmp_path, monkeypatch):
+    monkeypatch.setattr(full_table, "ROW_GROUP", 50)  # the shed's 192 rows in 4 row groups
     names = _check(tmp_path / "o", "--full-table", "both")
     assert {"segments.csv", "segments.parquet"} <= set(names)
     csv = _csv(tmp_path / "o" / "segments.csv")
     par = pd.read_parquet(tmp_path / "o" / "segments.parquet")
     assert list(par.columns) == list(csv.columns)
     assert len(par) == len(csv)
+    assert pq.ParquetFile(tmp_path / "o" / "segments.parquet").num_row_groups == 4
     for column in csv.columns:
         if pd.api.types.is_float_dtype(par[column]):
             a = par[column].to_numpy(dtype=float)
@@ -119,3 +121,12 @@ def test_a_csv_longer_than_a_spreadsheet_says_so(tmp_path, monkeypatch):
     )
     assert result.exit_code == 0, result.output
     assert "a common spreadsheet shows only the first 10" in result.output
+
+
+def test_a_parquet_run_keeps_flagged_csv_to_the_reading_columns(tmp_path):
+    _check(tmp_path / "p", "--full-table", "parquet")
+    _check(tmp_path / "c")
+    narrow = _csv(tmp_path / "p" / "flagged.csv")
+    wide = _csv(tmp_path / "c" / "flagged.csv")
+    assert list(narrow.columns) == exports.reading_columns(SI)
+    pd.testing.assert_frame_equal(narrow, wide[list(narrow.columns)])
