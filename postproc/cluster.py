@@ -132,6 +132,7 @@ class ClusterRun:
     method: str | None = None
     units: str | None = None
     arguments: tuple[str, ...] = ()
+    exact: bool = True
 
 
 @dataclass(frozen=True)
@@ -193,6 +194,7 @@ def check_on_cluster(
             segments=segments,
             props=section_table(frame.model.sections),
             check=check,
+            exact=run.exact,
             units=units,
             root=settings.path("forces").resolve(),
             combinations=tuple(checked),

@@ -17,6 +17,7 @@ import numpy as np
 import pandas as pd
 import pyarrow as pa
 import pyarrow.csv as pacsv
+from flangewise.engine.buckling import EXACT_NOTES
 from flangewise.engine.check import EXACT_MARGIN, CheckResult
 from flangewise.engine.flags import FLAGS
 from flangewise.postproc.full_table import write_parquet
@@ -559,6 +560,13 @@ def exact_lines(info: dict[str, Any]) -> list[str]:
         if info["limit to exact"]
         else "NOT limited ([check] limit_to_exact = false): the code factor is used"
     )
+    off = EXACT_NOTES[3]
+    if exact["pairs without"].get(off):
+        lines = [
+            "Exact analysis : SWITCHED OFF for this run (--no-exact): the code factors were NOT "
+            "compared with an elastic buckling analysis of each diagram (no code-factor-high check)"
+        ]
+        return [*lines, f"Load height    : {LOAD_HEIGHT_WORDS[info['load height']]}"]
     lines = [
         f"Exact analysis : {exact['pairs with an exact factor']} of {info['pairs checked']} "
         "checked pairs (elastic buckling analysis, Vlasov beam theory, fork supports)"

@@ -60,6 +60,7 @@ class Shared:
         segments: the unbraced segments.
         props: section properties and class per section name.
         check: the check settings in force (after ``--method``).
+        exact: whether the exact buckling analysis runs (``--no-exact`` switches it off).
         units: the output units.
         root: the forces folder.
         combinations: the load combinations checked, in the model's order.
@@ -73,6 +74,7 @@ class Shared:
     segments: Segments
     props: pd.DataFrame
     check: CheckSettings
+    exact: bool
     units: ShownUnits
     root: Path
     combinations: tuple[str, ...]
@@ -162,7 +164,10 @@ def check_task(shared: Shared, task: Task) -> Partial:
     diagrams = segment_diagrams(model, shared.members, shared.segments)
     layout = Layout(shared.members, shared.segments, diagrams)
     result = CheckResult(
-        check_pairs(layout, shared.props, shared.check), shared.props, layout, shared.check
+        check_pairs(layout, shared.props, shared.check, exact=shared.exact),
+        shared.props,
+        layout,
+        shared.check,
     )
     del diagrams, layout, forces, model
     if shared.scope is not None:

@@ -425,3 +425,18 @@ def test_code_factor_high_segments_appear_in_the_report_as_actionable(shed):
         anchor = f"id='seg-{row['segment']}-{row['combination']}'".replace(" ", "_")
         assert anchor in html, anchor
     assert "(flagged, actionable)" in html
+
+
+def test_no_exact_skips_the_analysis_and_says_so(tmp_path):
+    result = CliRunner().invoke(main, ["check", str(SHED), "--out", str(tmp_path), "--no-exact"])
+    assert result.exit_code == 0, result.output
+    assert "SWITCHED OFF" in result.output
+    seg = pd.read_csv(tmp_path / "segments.csv")
+    rows = _checked(seg)
+    assert rows["exact factor"].isna().all()
+    assert rows["exact note"].str.contains("switched off").all()
+    assert not seg["flags"].fillna("").str.contains("code-factor-high").any()
+    refused = CliRunner().invoke(
+        main, ["check", str(SHED), "--out", str(tmp_path / "x"), "--no-exact", "--method", "exact"]
+    )
+    assert refused.exit_code == 2 and "needs the exact analysis" in refused.output
