@@ -45,8 +45,9 @@ HERE = Path(__file__).resolve().parent
 TIME = "/usr/bin/time"
 
 #: One instrumented check: argv = folder, out, "on"|"off", stage file. The command line's own
-#: main() runs ("off": with --no-exact); only the stage functions are wrapped in timers. Each stage records its seconds, when it ended (from the process's first
-#: line) and this process's peak RSS after it.
+#: main() runs ("off": with --no-exact); only the stage functions are wrapped in timers. Each
+#: stage records its seconds, when it ended (from the process's first line) and this process's
+#: peak RSS after it.
 CHILD = r"""
 import time
 t_start = time.perf_counter()
@@ -84,7 +85,9 @@ timed(layout, "build_segments", "segments")
 timed(layout, "segment_diagrams", "diagrams")
 timed(check, "check_pairs", "check_pairs")
 timed(check, "exact_factors", "exact buckling")
-sys.argv = ["flangewise", "check", folder, "--out", out] + (["--no-exact"] if exact == "off" else [])
+sys.argv = ["flangewise", "check", folder, "--out", out]
+if exact == "off":
+    sys.argv.append("--no-exact")
 try:
     cli.main()
 except SystemExit:  # click ends every run this way; the parent reads the exit status
