@@ -24,6 +24,7 @@ import dataclasses
 import logging
 import os
 import shutil
+import signal
 import uuid
 import warnings
 from collections.abc import Callable, Iterator, Sequence
@@ -350,8 +351,10 @@ def _client(options: ClusterOptions) -> Iterator[Any]:
     warnings.simplefilter("ignore")
     try:
         if options.address == "local":
-            with (
-                distributed.LocalCluster(
+            # Ctrl-C while the workers start would leave them half started, for Dask to fail
+            # closing at exit (with a traceback): the interrupt waits until they are up.
+            with _interrupt_deferred() as interrupted:
+                cluster = distributed.LocalCluster(
                     n_workers=options.workers,
                     threads_per_worker=1,
                     processes=True,
@@ -359,9 +362,10 @@ def _client(options: ClusterOptions) -> Iterator[Any]:
                     # A free port for its web pages: never a warning that 8787 is taken.
                     dashboard_address=":0",
                     silence_logs=logging.CRITICAL,
-                ) as cluster,
-                distributed.Client(cluster) as client,
-            ):
+                )
+            with cluster, distributed.Client(cluster) as client:
+                if interrupted:
+                    raise KeyboardInterrupt
                 yield client
             return
         try:
@@ -376,6 +380,24 @@ def _client(options: ClusterOptions) -> Iterator[Any]:
     finally:
         quiet.setLevel(level)
         caught.__exit__(None, None, None)
+
+
+@contextmanager
+def _interrupt_deferred() -> Iterator[list[int]]:
+    """Hold back Ctrl-C for a block; the list says whether it came (raise it after the block).
+
+    Only the main thread can take signals; elsewhere the block runs as it is.
+    """
+    came: list[int] = []
+    try:
+        before = signal.signal(signal.SIGINT, lambda signum, frame: came.append(signum))
+    except ValueError:  # not the main thread
+        yield came
+        return
+    try:
+        yield came
+    finally:
+        signal.signal(signal.SIGINT, before)
 
 
 def _workers_see(root: str, stage: str) -> tuple[str, bool, bool]:

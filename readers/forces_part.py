@@ -288,7 +288,7 @@ def _joined(pieces: list[pd.DataFrame]) -> pd.DataFrame:
     if len(pieces) == 1:
         return pieces[0]
     combination = pd.api.types.union_categoricals([p["combination"] for p in pieces])
-    out = pd.concat(pieces, ignore_index=True, copy=False)
+    out = pd.concat(pieces, ignore_index=True)
     out["combination"] = combination
     return out
 
@@ -318,7 +318,8 @@ def missing_combinations(
     sets = np.vstack(
         [np.unpackbits(np.frombuffer(b, dtype=np.uint8), count=n_el) for b in distinct]
     ).astype(bool)
-    lacking = sets.any(axis=0)[None, :] & ~sets  # per distinct set, the elements it lacks
+    anywhere = np.asarray(sets.any(axis=0))
+    lacking = anywhere[None, :] & ~sets  # per distinct set, the elements it lacks
     per_set = lacking.sum(axis=1)
     kept = which >= 0
     total = int(per_set[which[kept]].sum())
