@@ -499,6 +499,11 @@ def _run_on_cluster(run: _Run) -> dict[str, Any]:
     )
     names = ", ".join(p.name + ("/" if p.is_dir() else "") for p in outcome.written)
     click.echo(f"Results        : {run.out}/ ({names}; {outcome.rows:,} rows in the full table)")
+    if info["provenance"]["settings"].get("full_table") in ("csv", "both"):
+        click.echo(
+            "NOTE           : [output] full_table does not apply to a check on a cluster: the "
+            "full table is the folder segments.parquet/"
+        )
     click.echo(CAUTION)
     return info
 
