@@ -303,6 +303,11 @@ def _finish_parts(reduction: Reduction, shared: Shared) -> int:
     join_flagged(reduction.flagged_parts(), header, shared.stage / "flagged.csv")
     shutil.rmtree(shared.stage / FLAGGED_PARTS, ignore_errors=True)
     folder = shared.stage / DATASET
+    # Only the parts of this run's tasks are published: nothing a dead worker left half written.
+    wanted = {part_name(n) for n in reduction.numbers()}
+    for path in folder.iterdir() if folder.is_dir() else ():
+        if path.name not in wanted:
+            path.unlink()
     if not reduction.numbers():
         from flangewise.postproc.full_table import write_parquet
 
@@ -431,6 +436,17 @@ def _probe(client: Any, shared: Shared) -> None:
             )
 
 
+#: Times the data every task needs is sent again after the workers holding it died (a lone
+#: worker restarted after going beyond its memory limit takes it down with it).
+RESENDS = 3
+
+#: What a run says when workers keep dying.
+WORKER_DIED = (
+    "a worker process died while checking (most often: it went beyond its memory limit; give "
+    "the workers more memory, or make the partitions smaller)"
+)
+
+
 def _run_tasks(
     client: Any,
     shared: Shared,
@@ -438,31 +454,53 @@ def _run_tasks(
     reduction: Reduction,
     progress: Callable[[int, int], None] | None,
 ) -> None:
-    """Run every task on the cluster; add each partial to ``reduction`` as it comes."""
+    """Run every task on the cluster; add each partial to ``reduction`` as it comes.
+
+    A task whose worker died is run again by Dask on another (or the restarted) worker. The
+    shared data lives only on the workers: when every copy is gone with them, the tasks waiting
+    for it are cancelled; it is then sent again and they are submitted again, up to
+    :data:`RESENDS` times.
+    """
     distributed = _distributed()
     from distributed.scheduler import KilledWorker
 
     run = uuid.uuid4().hex[:8]
+    waiting = {task.number: task for task in tasks}
+    sent = 0
     try:
         on_workers = client.scatter(shared, broadcast=True, hash=False)
-        futures = [
-            client.submit(check_task, on_workers, task, key=f"flangewise-{run}-{task.number}")
+        futures = {
+            client.submit(
+                check_task, on_workers, task, key=f"flangewise-{run}-{task.number}-0"
+            ): task.number
             for task in tasks
-        ]
-        for done, future in enumerate(distributed.as_completed(futures), start=1):
+        }
+        running = distributed.as_completed(list(futures))
+        for future in running:
+            number = futures.pop(future)
+            if future.status == "finished":
+                reduction.add(future.result())
+                future.release()
+                del waiting[number]
+                if progress is not None:
+                    progress(len(tasks) - len(waiting), len(tasks))
+                continue
             if future.status == "error":
                 error, trace = future.exception(), future.traceback()
                 if isinstance(error, KilledWorker):
-                    raise ClusterFailed(
-                        "a worker process died while checking (most often: it went beyond its "
-                        "memory limit; give the workers more memory, or make the partitions "
-                        "smaller)"
-                    )
+                    raise ClusterFailed(WORKER_DIED)
                 break
-            reduction.add(future.result())
-            future.release()
-            if progress is not None:
-                progress(done, len(tasks))
+            # Cancelled: the shared data was lost with the workers that held it.
+            if on_workers.status != "finished":
+                sent += 1
+                if sent > RESENDS:
+                    raise ClusterFailed(WORKER_DIED)
+                on_workers = client.scatter(shared, broadcast=True, hash=False)
+            again = client.submit(
+                check_task, on_workers, waiting[number], key=f"flangewise-{run}-{number}-{sent}"
+            )
+            futures[again] = number
+            running.add(again)
         else:
             return
     except OSError as exc:  # the connection closed (CommClosedError is one), a socket failed

@@ -17,8 +17,10 @@ Nothing here imports Dask: the tasks are plain functions of plain values.
 
 from __future__ import annotations
 
+import os
 import shutil
-from collections.abc import Sequence
+import uuid
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -206,12 +208,13 @@ def _fill(partial: Partial, seg: pd.DataFrame, shared: Shared, number: int) -> N
         if len(seg):
             folder = shared.stage / DATASET
             folder.mkdir(exist_ok=True)
-            write_parquet(folder / part_name(number), seg, shared.notes)
+            _whole(folder / part_name(number), lambda p: write_parquet(p, seg, shared.notes))
         folder = shared.stage / FLAGGED_PARTS
         folder.mkdir(exist_ok=True)
         for run, rows in enumerate((flagged[~second], flagged[second])):
             if len(rows):
-                (folder / flagged_name(number, run)).write_bytes(exports.csv_text(rows, False))
+                text = exports.csv_text(rows, False)
+                _whole(folder / flagged_name(number, run), lambda p, t=text: p.write_bytes(t))
     except OSError as exc:
         raise NotWritten(str(exc)) from None
     partial.flagged = (int((~second).sum()), int(second.sum()))
@@ -226,6 +229,21 @@ def _fill(partial: Partial, seg: pd.DataFrame, shared: Shared, number: int) -> N
     seen[shared.segments.table.index.get_indexer(seg["segment"].unique())] = True
     partial.segments = np.packbits(seen)
     partial.combinations = [str(c) for c in seg["combination"].unique()]
+
+
+def _whole(path: Path, write: Callable[[Path], object]) -> None:
+    """Write a file under a hidden name, then give it its name: a part is whole or absent.
+
+    A task whose worker died is run again, and a task may (rarely, on a cluster that lost
+    sight of a worker) run twice: the last complete copy stands, never a half-written one.
+    Hidden names (a leading ".") are skipped by every reader of a Parquet folder.
+    """
+    draft = path.with_name(f".{path.name}.{uuid.uuid4().hex}")
+    try:
+        write(draft)
+        os.replace(draft, path)
+    finally:
+        draft.unlink(missing_ok=True)
 
 
 @dataclass

@@ -75,14 +75,19 @@ def test_a_cluster_run_gives_the_plain_results(sample, make_dataset, scheduler, 
     assert (tmp_path / "cluster" / "segments.parquet").is_dir()
 
 
-def test_filters_narrow_both_runs_alike(make_dataset, scheduler, tmp_path):
+@pytest.mark.parametrize(
+    "options",
+    [
+        ("--member", "M4", "--member", "M6", "--combination", "ULS2 0.9D+1.3W"),
+        ("--no-exact", "--method", "quarter_point", "--units", "us"),
+    ],
+)
+def test_options_act_on_both_runs_alike(options, make_dataset, scheduler, tmp_path):
     model = make_dataset("industrial_shed")
-    wanted = ["--member", "M4", "--member", "M6", "--combination", "ULS2 0.9D+1.3W"]
-    plain = check(model, tmp_path / "plain", "--full-table", "parquet", *wanted)
-    on_cluster = check(model, tmp_path / "cluster", "--cluster", scheduler, *wanted)
+    plain = check(model, tmp_path / "plain", "--full-table", "parquet", *options)
+    on_cluster = check(model, tmp_path / "cluster", "--cluster", scheduler, *options)
     assert plain.exit_code == on_cluster.exit_code == 0, on_cluster.output
     assert_same_results(tmp_path / "plain", tmp_path / "cluster")
-    assert summary(tmp_path / "cluster")["members"] == 2
 
 
 def _damage(folder: Path, combination: str, record: int, column: str, value: object) -> None:
@@ -205,52 +210,85 @@ def test_the_plain_path_does_not_import_dask(make_dataset, tmp_path):
 
 
 class _Future:
-    """A finished task as the client hands it back, for the failure paths."""
+    """A task as the client hands it back once done: finished, failed or cancelled."""
 
-    def __init__(self, error: BaseException) -> None:
-        self.status = "error"
+    def __init__(self, status: str, error: BaseException | None = None) -> None:
+        self.status = status
         self._error = error
 
-    def exception(self) -> BaseException:
+    def exception(self) -> BaseException | None:
         return self._error
 
     def traceback(self) -> None:
         return None
 
+    def result(self) -> str:
+        return "partial"
+
+    def release(self) -> None:
+        pass
+
 
 class _Client:
-    def __init__(self, error: BaseException, at_scatter: bool = False) -> None:
-        self.error = error
-        self.at_scatter = at_scatter
+    """Hands back, per submission, the next of ``outcomes`` (the last one repeats)."""
 
-    def scatter(self, *args: object, **kwargs: object) -> object:
-        if self.at_scatter:
-            raise self.error
-        return object()
+    def __init__(self, *outcomes: _Future, at_scatter: BaseException | None = None) -> None:
+        self.outcomes = list(outcomes)
+        self.at_scatter = at_scatter
+        self.scattered = 0
+
+    def scatter(self, *args: object, **kwargs: object) -> _Future:
+        if self.at_scatter is not None:
+            raise self.at_scatter
+        self.scattered += 1
+        # The data lives on the workers: a cancelled task means it was lost with them.
+        return _Future("lost" if self.outcomes[0].status == "cancelled" else "finished")
 
     def submit(self, *args: object, **kwargs: object) -> _Future:
-        return _Future(self.error)
+        return self.outcomes.pop(0) if len(self.outcomes) > 1 else self.outcomes[0]
 
 
-def _tasks(client: _Client, monkeypatch) -> None:
+class _AsCompleted:
+    def __init__(self, futures: list) -> None:
+        self.futures = list(futures)
+
+    def __iter__(self):
+        while self.futures:
+            yield self.futures.pop(0)
+
+    def add(self, future: _Future) -> None:
+        self.futures.append(future)
+
+
+def _tasks(client: _Client, monkeypatch) -> list:
     distributed = pytest.importorskip("distributed")
-    monkeypatch.setattr(distributed, "as_completed", lambda futures: iter(futures))
-    shared = SimpleNamespace()
-    task = SimpleNamespace(number=0)
-    cluster._run_tasks(client, shared, [task], SimpleNamespace(), None)
+    monkeypatch.setattr(distributed, "as_completed", _AsCompleted)
+    added: list = []
+    reduction = SimpleNamespace(add=added.append)
+    cluster._run_tasks(client, SimpleNamespace(), [SimpleNamespace(number=0)], reduction, None)
+    return added
 
 
 def test_a_dead_worker_is_a_cluster_failure_not_a_result(monkeypatch):
+    from distributed.comm import CommClosedError
     from distributed.scheduler import KilledWorker
 
+    killed = _Future("error", KilledWorker("task", "worker", 3))
     with pytest.raises(cluster.ClusterFailed, match="worker process died"):
-        _tasks(_Client(KilledWorker("task", "worker", 3)), monkeypatch)
-    from distributed.comm import CommClosedError
-
+        _tasks(_Client(killed), monkeypatch)
     with pytest.raises(cluster.ClusterFailed, match="connection to the cluster was lost"):
-        _tasks(_Client(CommClosedError("gone"), at_scatter=True), monkeypatch)
+        _tasks(_Client(killed, at_scatter=CommClosedError("gone")), monkeypatch)
     with pytest.raises(ZeroDivisionError):  # a fault of a task: raised as it was, exit status 4
-        _tasks(_Client(ZeroDivisionError("a fault")), monkeypatch)
+        _tasks(_Client(_Future("error", ZeroDivisionError("a fault"))), monkeypatch)
+    # Workers that keep dying with the shared data: sent again a few times, then a failure.
+    with pytest.raises(cluster.ClusterFailed, match="worker process died"):
+        _tasks(_Client(_Future("cancelled")), monkeypatch)
+
+
+def test_tasks_cancelled_with_a_lost_worker_run_again(monkeypatch):
+    client = _Client(_Future("cancelled"), _Future("finished"))
+    assert _tasks(client, monkeypatch) == ["partial"]
+    assert client.scattered == 2  # the shared data was sent again
 
 
 def test_a_cluster_failure_ends_with_status_4_and_writes_nothing(
