@@ -11,6 +11,7 @@ from __future__ import annotations
 import json
 import subprocess
 import sys
+import time
 from pathlib import Path
 from types import SimpleNamespace
 
@@ -318,3 +319,35 @@ def test_full_table_parts_follow_the_models_order(make_dataset, scheduler, tmp_p
     info = json.loads((tmp_path / "out" / "summary.json").read_text(encoding="utf-8"))
     assert len(firsts) == info["load combinations"]
     assert np.all(pq.read_metadata(parts[0]).num_rows > 0)
+
+
+def test_ctrl_c_shuts_the_local_cluster_down(make_dataset, tmp_path):
+    import signal
+
+    psutil = pytest.importorskip("psutil")
+    model = make_dataset("two_span_beam")
+    out = tmp_path / "out"
+    command = [str(Path(sys.executable).parent / "flangewise"), "check", str(model)]
+    command += ["--out", str(out), "--cluster", "local", "--workers", "2"]
+    child = subprocess.Popen(
+        command,
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+        preexec_fn=lambda: signal.signal(signal.SIGINT, signal.SIG_DFL),
+    )
+    workers: list = []
+    while not workers and child.poll() is None:  # Ctrl-C as the workers start
+        try:
+            kids = psutil.Process(child.pid).children(recursive=True)
+            workers = [k for k in kids if "spawn_main" in " ".join(k.cmdline())]
+        except psutil.Error:
+            pass  # a process that ended while being looked at
+        time.sleep(0.02)
+    child.send_signal(signal.SIGINT)
+    _, err = child.communicate(timeout=60)
+    assert child.returncode == 130, err
+    assert err.strip() == "Interrupted."
+    psutil.wait_procs(workers, timeout=10)
+    assert not [w for w in workers if w.is_running() and w.status() != psutil.STATUS_ZOMBIE]
+    assert not out.exists() or not any(out.iterdir())
