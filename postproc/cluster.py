@@ -28,6 +28,7 @@ import signal
 import uuid
 import warnings
 from collections.abc import Callable, Iterator, Sequence
+from concurrent.futures import Future
 from contextlib import contextmanager
 from dataclasses import dataclass
 from importlib.metadata import version
@@ -53,7 +54,12 @@ from flangewise.postproc.partition_check import (
     join_flagged,
     part_name,
 )
-from flangewise.postproc.provenance import finish_hashing, provenance, start_hashing
+from flangewise.postproc.provenance import (
+    InputFile,
+    finish_hashing,
+    provenance,
+    start_hashing,
+)
 from flangewise.postproc.shown_units import ShownUnits, shown_units
 from flangewise.readers.forces_part import (
     Partition,
@@ -171,14 +177,23 @@ def check_on_cluster(
     _memory_bytes(run.options)
     hashing = start_hashing(read_settings(run.model, run.settings_file))
     try:
-        frame, from_option = load_frame(run.model, run.settings_file, run.combinations or None)
-        parts = partitions(frame.model.settings)
-        names = [p.combination for p in parts]
-        checked = checked_combinations(frame, names, from_option)
+        return _check(run, hashing, progress)
     except BaseException:
         for future in hashing:
-            future.cancel()
+            future.cancel()  # no hashing of big files left to wait for once the run has failed
         raise
+
+
+def _check(
+    run: ClusterRun,
+    hashing: list[Future[InputFile]],
+    progress: Callable[[int, int], None] | None,
+) -> ClusterOutcome:
+    """:func:`check_on_cluster` once the input files are being hashed."""
+    frame, from_option = load_frame(run.model, run.settings_file, run.combinations or None)
+    parts = partitions(frame.model.settings)
+    names = [p.combination for p in parts]
+    checked = checked_combinations(frame, names, from_option)
     settings = frame.model.settings
     check = settings.check
     if run.method:
@@ -187,7 +202,10 @@ def check_on_cluster(
     segments = build_segments(frame.model, members, settings.members)
     scope = _scope(members.table.index, run.members)
     units = _units(run.units, settings)
-    stage = exports.make_stage(run.out)
+    try:
+        stage = exports.make_stage(run.out)
+    except OSError as exc:
+        raise NotWritten(str(exc)) from exc
     try:
         shared = Shared(
             frame=frame,
@@ -347,6 +365,8 @@ def _memory_bytes(options: ClusterOptions) -> int:
 def _client(options: ClusterOptions) -> Iterator[Any]:
     """A client of the cluster asked for: a local one (shut down after) or an existing one."""
     distributed = _distributed()
+    import dask
+
     quiet = logging.getLogger("distributed")
     level = quiet.level
     # Dask's own warnings (memory use, restarts) are not for the user: failures are reported here.
@@ -358,7 +378,11 @@ def _client(options: ClusterOptions) -> Iterator[Any]:
         if options.address == "local":
             # Ctrl-C while the workers start would leave them half started, for Dask to fail
             # closing at exit (with a traceback): the interrupt waits until they are up.
-            with _interrupt_deferred() as interrupted:
+            # Dask's sampling profiler of each worker costs CPU the check needs.
+            with (
+                _interrupt_deferred() as interrupted,
+                dask.config.set({"distributed.worker.profile.enabled": False}),
+            ):
                 cluster = distributed.LocalCluster(
                     n_workers=options.workers,
                     threads_per_worker=1,

@@ -246,6 +246,11 @@ def _whole(path: Path, write: Callable[[Path], object]) -> None:
         draft.unlink(missing_ok=True)
 
 
+#: Partials' governing candidates held before they are reduced to one row per member: ranking
+#: the members' names costs the same for one partial or several, held a few at a time.
+GOVERNING_BATCH = 6
+
+
 @dataclass
 class Reduction:
     """The partials of a run put together, as they come (in any order).
@@ -253,7 +258,7 @@ class Reduction:
     Attributes:
         shared: what the tasks shared.
         partials: how many were added.
-        governing: each member's governing pair so far (full rows).
+        governing: each member's governing pair among the partials folded in so far.
         empty: the full table's columns with no rows (from the first task that checked pairs).
     """
 
@@ -261,6 +266,7 @@ class Reduction:
     partials: int = 0
     governing: pd.DataFrame | None = None
     empty: pd.DataFrame | None = None
+    _waiting: list[pd.DataFrame] = field(default_factory=list)
     _problems: dict[int, tuple[list[Problem], int]] = field(default_factory=dict)
     _present: dict[int, list[np.ndarray | None]] = field(default_factory=dict)
     _rows: dict[int, int] = field(default_factory=dict)
@@ -285,8 +291,9 @@ class Reduction:
         if self.empty is None:
             self.empty = partial.governing.iloc[:0]
         if len(partial.governing):
-            both = [g for g in (self.governing, partial.governing) if g is not None]
-            self.governing = exports.governing_table(_stacked(both))
+            self._waiting.append(partial.governing)
+            if len(self._waiting) >= GOVERNING_BATCH:
+                self._fold()
         for key, n in partial.counts.items():
             self._counts[key] = self._counts.get(key, 0) + n
         self._exact_with += partial.exact_with
@@ -306,8 +313,16 @@ class Reduction:
             )
         self._combinations.update(partial.combinations)
 
+    def _fold(self) -> None:
+        """Keep only each member's governing pair of the candidates so far (the same rule)."""
+        both = [g for g in (self.governing, *self._waiting) if g is not None]
+        self._waiting = []
+        if both:
+            self.governing = exports.governing_table(_stacked(both))
+
     def table(self) -> pd.DataFrame:
         """governing.csv: each member's governing pair, members in natural order."""
+        self._fold()
         if self.governing is not None:
             return self.governing
         if self.empty is None:

@@ -18,9 +18,10 @@ The peak memory is that of the whole process tree (the command, and for a cluste
 nanny and worker processes): the sum of the resident memory (RSS) of the process and all its
 descendants, sampled every :data:`POLL_S` seconds with psutil. RSS counts pages shared between
 processes (libraries) once per process, so the sum overstates the tree's use a little; the sum of
-proportional set sizes (PSS, shared pages split between the processes sharing them) is shown
-beside it. Targets (issue 14; a benchmark, never a timed test): 50 M rows finish with the tree
-at most 2 GB, and the time per row within 1.5x that of the plain check at 5 M rows.
+proportional set sizes (PSS, shared pages split between the processes sharing them; sampled ten
+times less often, reading it is costly) is shown beside it. Targets (issue 14; a benchmark, never
+a timed test): 50 M rows finish with the tree at most 2 GB, and the time per row within 1.5x
+that of the plain check at 5 M rows.
 
 The machine is shared: other work running at the same time shows in the times.
 """
@@ -46,6 +47,9 @@ HERE = Path(__file__).resolve().parent
 
 #: Seconds between two samples of the process tree's memory.
 POLL_S = 0.2
+
+#: The proportional set sizes are read every so many samples (reading them is costly).
+PSS_EVERY = 10
 
 #: Elements per beam, element length [m] and stations per element: those of ``synthetic.py``.
 PER_BEAM, EL_LEN, STATIONS = 4, 1.5, 5
@@ -93,22 +97,31 @@ class TreeMemory:
         self._thread.start()
 
     def _poll(self) -> None:
+        polls = 0
         while not self._stop.is_set():
             try:
                 tree = [self.root, *self.root.children(recursive=True)]
             except psutil.Error:
                 break
+            # RSS is cheap to read (statm); PSS needs the kernel to walk every mapping (smaps),
+            # which costs a core's tenth at this rate: read only every PSS_EVERY-th time.
+            full = polls % PSS_EVERY == 0
             rss = pss = 0
             for p in tree:
                 try:
-                    info = p.memory_full_info()
+                    if full:
+                        info = p.memory_full_info()
+                        pss += getattr(info, "pss", info.rss)
+                    else:
+                        info = p.memory_info()
                     rss += info.rss
-                    pss += getattr(info, "pss", info.rss)
                 except psutil.Error:
                     pass  # a process that ended between the listing and the reading
             self.peak_rss = max(self.peak_rss, rss)
-            self.peak_pss = max(self.peak_pss, pss)
+            if full:
+                self.peak_pss = max(self.peak_pss, pss)
             self.peak_processes = max(self.peak_processes, len(tree))
+            polls += 1
             self._stop.wait(POLL_S)
 
     def stop(self) -> None:
