@@ -469,6 +469,7 @@ class _PartWriter:
     def __init__(self, stage: Path, plan: _Plan) -> None:
         self.stage = stage
         self.key = plan.key
+        self.source = plan.name
         full = plan.schema()
         self.schema = full.remove(full.get_field_index(plan.key))
         self.held: dict[str, list[pa.RecordBatch]] = {}
@@ -517,6 +518,22 @@ class _PartWriter:
             _, oldest = self.files.popitem(last=False)
             oldest.close()
         folder = self.stage / f"{self.key}={quote(name, safe='')}"
+        if name not in self.parts and folder.exists():
+            # Names that differ only in case, on a file system that does not tell them apart:
+            # the second would write over the first's files.
+            raise InputError(
+                [
+                    Problem(
+                        self.source,
+                        None,
+                        self.key,
+                        name,
+                        "load combination names that stay distinct as folder names; on this "
+                        "file system this one's folder is that of another combination whose "
+                        "name differs only in case (rename one in the export)",
+                    )
+                ]
+            )
         folder.mkdir(parents=True, exist_ok=True)
         n = self.parts.get(name, 0)
         self.parts[name] = n + 1

@@ -174,3 +174,19 @@ def test_a_forces_table_that_is_no_csv_file_is_refused(tmp_path):
     )
     assert result.exit_code == 2
     assert "as a CSV file to convert" in result.output
+
+
+def test_names_one_folder_cannot_tell_apart_are_refused(tmp_path, monkeypatch):
+    # A file system that ignores case (as on macOS and Windows) sees "ULS-1 gravity" and
+    # "uls-1 gravity" as one folder: stood in for by folder names written in lower case.
+    import flangewise.postproc.convert as convert
+
+    monkeypatch.setattr(convert, "quote", lambda name, safe: name.lower())
+    folder = _copy("two_span_beam", tmp_path)
+    csv = folder / "forces.csv"
+    text = csv.read_text(encoding="utf-8").replace("ULS-2 pattern", "uls-1 GRAVITY")
+    csv.write_text(text, encoding="utf-8")
+    result = _partition(folder, "--out", folder / "forces_ds")
+    assert result.exit_code == 2, result.output
+    assert "column 'combination': got 'uls-1 GRAVITY'" in result.output
+    assert not (folder / "forces_ds").exists()
