@@ -46,6 +46,9 @@ DATASET = "segments.parquet"
 #: Where the tasks leave their rows of flagged.csv in the staging folder (removed once joined).
 FLAGGED_PARTS = ".flagged-parts"
 
+#: Where the tasks make the folders of links they read partitions through, in the staging folder.
+LINKS = ".links"
+
 #: The two runs of pairs of a check, in the order its table lists them: the pairs of the top
 #: and "either" segments first, then those of the bottom segments (each in the order of the
 #: load combinations, then along the members). Parts are joined in this order.
@@ -155,7 +158,11 @@ def check_task(shared: Shared, task: Task) -> Partial:
     together. Nothing is written for a task with a problem.
     """
     problems = ProblemList()
-    got = read_partitions(shared.frame, shared.root, task.parts, problems)
+    # The links each partition is read through live in the run's staging folder: removed with
+    # it at the end of the run, even when a worker dies while reading.
+    links = shared.stage / LINKS
+    links.mkdir(exist_ok=True)
+    got = read_partitions(shared.frame, shared.root, task.parts, problems, links)
     partial = Partial(task.number, problems.items, problems.more, got.present)
     if problems or got.forces is None:
         return partial

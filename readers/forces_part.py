@@ -226,7 +226,11 @@ def partitions(settings: Settings) -> list[Partition]:
 
 
 def read_partitions(
-    frame: Frame, root: Path, parts: Sequence[Partition], problems: ProblemList
+    frame: Frame,
+    root: Path,
+    parts: Sequence[Partition],
+    problems: ProblemList,
+    scratch: Path | None = None,
 ) -> PartForces:
     """Read and validate the forces of ``parts``, each partition on its own.
 
@@ -234,6 +238,14 @@ def read_partitions(
     validated as the whole table is (element ids, positions, stations at both ends, moments),
     with no selection of combinations: the caller selects. Problems name the file of the folder
     and the row within it (and the row of the CSV file a converted dataset came from).
+
+    Args:
+        frame: the model's other tables.
+        root: the forces folder.
+        parts: the partitions to read.
+        problems: where problems go.
+        scratch: where to make the short-lived folder of links each partition is read through
+            (the system's temporary folder by default).
     """
     settings = dataclasses.replace(frame.model.settings, combinations=())
     n_el = len(frame.model.elements)
@@ -241,7 +253,7 @@ def read_partitions(
     present: list[np.ndarray | None] = []
     for part in parts:
         mine = ProblemList()
-        df = _read_files(settings, root, part.files, mine)
+        df = _read_files(settings, root, part.files, mine, scratch)
         if df is None:
             present.append(None)
         else:
@@ -264,7 +276,11 @@ def read_partitions(
 
 
 def _read_files(
-    settings: Settings, root: Path, files: Sequence[str], problems: ProblemList
+    settings: Settings,
+    root: Path,
+    files: Sequence[str],
+    problems: ProblemList,
+    scratch: Path | None = None,
 ) -> pd.DataFrame | None:
     """Read some files of the folder ``root`` as the whole-table reader reads the folder.
 
@@ -272,7 +288,7 @@ def _read_files(
     then sees the same folder names (and so the same combination), numbers the records of each
     file the same way and names each file by the same path.
     """
-    view = Path(tempfile.mkdtemp(prefix="flangewise-part-"))
+    view = Path(tempfile.mkdtemp(prefix="flangewise-part-", dir=scratch))
     try:
         for relative in files:
             link = view / relative
