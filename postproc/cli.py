@@ -40,7 +40,7 @@ from flangewise.postproc.provenance import (
     start_hashing,
 )
 from flangewise.postproc.report import build_report
-from flangewise.postproc.shown_units import SYSTEMS, ShownUnits, shown_units
+from flangewise.postproc.shown_units import SYSTEMS, run_units
 from flangewise.postproc.summary import model_summary
 from flangewise.readers import InputError, Model, load_model, read_settings
 from flangewise.readers.settings import GRADIENT_METHODS
@@ -234,11 +234,6 @@ units_option = click.option(
 )
 
 
-def _units(model: Model, choice: str | None) -> ShownUnits:
-    """The run's output units: the command line's, else the settings file's, else the input's."""
-    return shown_units((choice or "").lower() or model.settings.output_units, model.settings.units)
-
-
 def sample_path(name: str) -> Path:
     """Return the folder of a bundled sample model."""
     return Path(str(files("flangewise.sample_models").joinpath(name)))
@@ -272,7 +267,7 @@ def summary(model: Path, settings_file: Path | None, units_choice: str | None) -
     """
     loaded = load_model(model, settings_file)
     layout = build_layout(loaded)
-    click.echo(model_summary(loaded, layout, _units(loaded, units_choice)))
+    click.echo(model_summary(loaded, layout, run_units(units_choice, loaded.settings)))
     click.echo(CAUTION)
 
 
@@ -297,7 +292,7 @@ def members(
     """
     loaded = load_model(model, settings_file)
     layout = build_layout(loaded)
-    units = _units(loaded, units_choice)
+    units = run_units(units_choice, loaded.settings)
     click.echo(members_text(layout.members, layout.segments, layout.diagrams, units))
     if csv_file is not None:
         rows = segment_rows(layout.members, layout.segments, layout.diagrams, units)
@@ -380,7 +375,7 @@ def _run_check(run: _Run) -> dict[str, Any]:
             # Narrow the results themselves, so that every output describes the same set.
             scope = _members_of_run(result, run.members)
             result = exports.select_members(result, scope)
-        units = _units(loaded, run.units)
+        units = run_units(run.units, loaded.settings)
         seg = exports.segment_table(result, units)
         next(it, None)
         info = exports.summary(result, seg, run.model, members=scope, units=units)
@@ -705,7 +700,7 @@ def explain(
         row = find_pair(result, segment, combination)
     except UnknownName as exc:
         _bad_parameter(exc.param, exc.message)
-    click.echo(derivation_text(result, row, units=_units(loaded, units_choice)))
+    click.echo(derivation_text(result, row, units=run_units(units_choice, loaded.settings)))
     click.echo(CAUTION)
 
 

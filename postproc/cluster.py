@@ -60,7 +60,7 @@ from flangewise.postproc.provenance import (
     provenance,
     start_hashing,
 )
-from flangewise.postproc.shown_units import ShownUnits, shown_units
+from flangewise.postproc.shown_units import run_units
 from flangewise.readers.forces_part import (
     Partition,
     checked_combinations,
@@ -201,7 +201,7 @@ def _check(
     members = build_members(frame.model, settings.members)
     segments = build_segments(frame.model, members, settings.members)
     scope = _scope(members.table.index, run.members)
-    units = _units(run.units, settings)
+    units = run_units(run.units, settings)
     try:
         stage = exports.make_stage(run.out)
     except OSError as exc:
@@ -303,11 +303,6 @@ def _scope(known: pd.Index, wanted: Sequence[str]) -> tuple[str, ...] | None:
             unknown_names_message("member", unknown, names, "'flangewise members MODEL'"),
         )
     return tuple(dict.fromkeys(wanted))
-
-
-def _units(choice: str | None, settings: Any) -> ShownUnits:
-    """The run's output units: the command line's, else the settings file's, else the input's."""
-    return shown_units((choice or "").lower() or settings.output_units, settings.units)
 
 
 def _finish_parts(reduction: Reduction, shared: Shared) -> int:

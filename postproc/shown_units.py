@@ -14,7 +14,7 @@ from typing import Literal
 
 import numpy as np
 from flangewise.readers import units as input_units
-from flangewise.readers.settings import Units
+from flangewise.readers.settings import Settings, Units
 
 System = Literal["si", "us"]
 SYSTEMS: tuple[str, ...] = ("si", "us")
@@ -130,3 +130,8 @@ def input_system(units: Units) -> System:
 def shown_units(choice: str | None, units: Units) -> ShownUnits:
     """The output units: ``choice`` ("si", "us") when given, else the input's own system."""
     return BY_SYSTEM[choice or input_system(units)]
+
+
+def run_units(choice: str | None, settings: Settings) -> ShownUnits:
+    """A run's output units: the command line's, else ``[output] units``, else the input's."""
+    return shown_units((choice or "").lower() or settings.output_units, settings.units)
